@@ -1,0 +1,65 @@
+//! Arbiter node core (skeleton: ports and parameters only; the algorithm lands with its issue).
+
+use serde::{Deserialize, Serialize};
+use sillage_core::msg::*;
+use sillage_core::params::{self, NodeParams, ParamError};
+use sillage_core::{Msg, Nanos, NodeCore, Outbox, Port, Qos};
+
+/// Default ROS node name.
+pub const NODE_NAME: &str = "arbiter";
+
+/// Parameters of the node.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct Params {
+    /// Output rate [Hz].
+    pub rate: f64,
+}
+
+impl Default for Params {
+    fn default() -> Self {
+        Params { rate: 10.0 }
+    }
+}
+
+impl NodeParams for Params {
+    fn validate(&self) -> Result<(), ParamError> {
+        params::ensure(self.rate.is_finite() && self.rate > 0.0, "rate", "must be > 0 [Hz]")
+    }
+}
+
+/// The node core.
+#[derive(Debug, Clone)]
+pub struct Arbiter {
+    params: Params,
+}
+
+impl Arbiter {
+    /// A core with validated parameters.
+    pub fn new(params: Params) -> Result<Self, ParamError> {
+        params.validate()?;
+        Ok(Arbiter { params })
+    }
+}
+
+impl NodeCore for Arbiter {
+    fn name(&self) -> &str {
+        NODE_NAME
+    }
+    fn inputs(&self) -> Vec<Port> {
+        vec![Port::of::<OdorBearing>("odor_bearing", Qos::Reliable), Port::of::<PlumeFeatures>("plume_features", Qos::Reliable), Port::of::<OdorEventArray>("odor_events", Qos::Reliable), Port::of::<Vector3Stamped>("wind", Qos::SensorData), Port::of::<Odometry>("odom", Qos::SensorData), Port::of::<Bool>("e_stop", Qos::Latched), Port::of::<Empty>("e_stop_reset", Qos::Reliable), Port::of::<LaserScan>("scan", Qos::SensorData)]
+    }
+    fn outputs(&self) -> Vec<Port> {
+        vec![Port::of::<TwistStamped>("cmd_vel", Qos::Reliable), Port::of::<SearchState>("search_state", Qos::Latched), Port::of::<PointStamped>("source_estimate", Qos::Reliable)]
+    }
+    fn timers(&self) -> Vec<Nanos> {
+        vec![sillage_core::time::nanos(1.0 / self.params.rate)]
+    }
+    fn on_message(&mut self, _now: Nanos, _input: usize, _msg: &Msg, _out: &mut Outbox) {}
+    fn params_yaml(&self) -> serde_yaml::Value {
+        params::to_value(&self.params)
+    }
+    fn set_params_yaml(&mut self, value: &serde_yaml::Value) -> Result<(), ParamError> {
+        params::apply(&mut self.params, value)
+    }
+}
