@@ -1,5 +1,9 @@
 //! Event encoder node core (skeleton: ports and parameters only; the algorithm lands with its issue).
 
+mod decay;
+mod overrides;
+pub mod conditioning;
+
 use serde::{Deserialize, Serialize};
 use sillage_core::msg::*;
 use sillage_core::params::{self, NodeParams, ParamError};
