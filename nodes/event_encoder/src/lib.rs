@@ -3,6 +3,7 @@
 mod decay;
 mod overrides;
 pub mod conditioning;
+pub mod encoding;
 
 use serde::{Deserialize, Serialize};
 use sillage_core::msg::*;
