@@ -1,65 +1,31 @@
-//! Plume estimator node core (skeleton: ports and parameters only; the algorithm lands with its issue).
+//! Plume estimator node core: bouts in the chemical signal, windowed plume-structure
+//! features, and a calibrated distance to the source.
+//!
+//! Pipeline per channel: conditioning ([`conditioning`]) → uniform grid ([`grid`]) →
+//! band-pass to a smoothed derivative ([`chain`], built from [`filters`]) → bouts
+//! ([`bouts`], threshold from [`noise`]) → per-step bins → window features ([`window`]) →
+//! pooled over channels → distance ([`distance`], fitted by [`calibration`]). The node
+//! ([`node`]) publishes `plume_features` every `features.step`; [`diagnostics`] reports
+//! per-channel values.
 
-use serde::{Deserialize, Serialize};
-use sillage_core::msg::*;
-use sillage_core::params::{self, NodeParams, ParamError};
-use sillage_core::{Msg, Nanos, NodeCore, Outbox, Port, Qos};
+pub mod bouts;
+pub mod calibration;
+pub mod chain;
+pub mod channel;
+pub mod conditioning;
+pub mod diagnostics;
+pub mod distance;
+pub mod error;
+pub mod filters;
+pub mod grid;
+pub mod node;
+pub mod noise;
+pub mod params;
+pub mod window;
+
+pub use error::PlumeError;
+pub use node::PlumeEstimator;
+pub use params::Params;
 
 /// Default ROS node name.
 pub const NODE_NAME: &str = "plume_estimator";
-
-/// Parameters of the node.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(deny_unknown_fields, default)]
-pub struct Params {
-    /// Output rate [Hz].
-    pub rate: f64,
-}
-
-impl Default for Params {
-    fn default() -> Self {
-        Params { rate: 10.0 }
-    }
-}
-
-impl NodeParams for Params {
-    fn validate(&self) -> Result<(), ParamError> {
-        params::ensure(self.rate.is_finite() && self.rate > 0.0, "rate", "must be > 0 [Hz]")
-    }
-}
-
-/// The node core.
-#[derive(Debug, Clone)]
-pub struct PlumeEstimator {
-    params: Params,
-}
-
-impl PlumeEstimator {
-    /// A core with validated parameters.
-    pub fn new(params: Params) -> Result<Self, ParamError> {
-        params.validate()?;
-        Ok(PlumeEstimator { params })
-    }
-}
-
-impl NodeCore for PlumeEstimator {
-    fn name(&self) -> &str {
-        NODE_NAME
-    }
-    fn inputs(&self) -> Vec<Port> {
-        vec![Port::of::<ChemSample>("chem", Qos::SensorData)]
-    }
-    fn outputs(&self) -> Vec<Port> {
-        vec![Port::of::<PlumeFeatures>("plume_features", Qos::Reliable)]
-    }
-    fn timers(&self) -> Vec<Nanos> {
-        vec![sillage_core::time::nanos(1.0 / self.params.rate)]
-    }
-    fn on_message(&mut self, _now: Nanos, _input: usize, _msg: &Msg, _out: &mut Outbox) {}
-    fn params_yaml(&self) -> serde_yaml::Value {
-        params::to_value(&self.params)
-    }
-    fn set_params_yaml(&mut self, value: &serde_yaml::Value) -> Result<(), ParamError> {
-        params::apply(&mut self.params, value)
-    }
-}
