@@ -1,65 +1,48 @@
-//! Arbiter node core (skeleton: ports and parameters only; the algorithm lands with its issue).
+//! The arbiter node core: the behaviour state machine that steers an odor-guided robot, with a
+//! safety guard applied last to every command.
+//!
+//! Inputs (port order): `odor_bearing` (OdorBearing), `plume_features` (PlumeFeatures),
+//! `odor_events` (OdorEventArray), `wind` (Vector3Stamped, base_link, air velocity pointing where
+//! the air goes to), `odom` (Odometry), `e_stop` (Bool), `e_stop_reset` (Empty), `scan`
+//! (LaserScan, optional). Outputs: `cmd_vel` (TwistStamped or Twist by `cmd_vel_stamped`,
+//! frame base_link, at the control rate), `search_state` (SearchState, latched),
+//! `source_estimate` (PointStamped, odom).
+//!
+//! Modules, each with its contract:
+//! - [`params`]: the typed parameters and their validation;
+//! - [`inputs`]: input order and the checks of every message; [`stats`]: their counters;
+//! - [`watchdog`]: input freshness; [`wind`]: wind in odom; [`contact`]: the contact decision;
+//! - [`modes`]: modes, precedence and transitions; [`strategy`]: the behaviour strategies and
+//!   how to add one; [`declare`]: source declaration;
+//! - [`drive`]: from motion intent to a body command; [`guard`]: caps, rate limits, e-stop
+//!   latch, obstacle stop, geofence;
+//! - [`node`]: the [`NodeCore`](sillage_core::NodeCore) implementation; [`diagnostics`].
+//!
+//! Safety decisions (details in [`guard`]): the e-stop zeroes the command at once, bypassing
+//! the deceleration limits, in the very call that receives `e_stop = true`; the latch releases
+//! only on an `e_stop_reset` that follows an `e_stop = false`; the obstacle stop also bypasses
+//! the deceleration limit; watchdog halts, WAITING and DECLARED ramp down under the
+//! deceleration limits; every input is stale until its first message; a non-finite value never
+//! reaches `cmd_vel`.
 
-use serde::{Deserialize, Serialize};
-use sillage_core::msg::*;
-use sillage_core::params::{self, NodeParams, ParamError};
-use sillage_core::{Msg, Nanos, NodeCore, Outbox, Port, Qos};
+pub mod contact;
+pub mod declare;
+pub mod diagnostics;
+pub mod drive;
+pub mod error;
+pub mod geometry;
+pub mod guard;
+pub mod inputs;
+pub mod modes;
+pub mod node;
+pub mod params;
+pub mod stats;
+pub mod strategy;
+pub mod watchdog;
+pub mod wind;
 
-/// Default ROS node name.
-pub const NODE_NAME: &str = "arbiter";
-
-/// Parameters of the node.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(deny_unknown_fields, default)]
-pub struct Params {
-    /// Output rate [Hz].
-    pub rate: f64,
-}
-
-impl Default for Params {
-    fn default() -> Self {
-        Params { rate: 10.0 }
-    }
-}
-
-impl NodeParams for Params {
-    fn validate(&self) -> Result<(), ParamError> {
-        params::ensure(self.rate.is_finite() && self.rate > 0.0, "rate", "must be > 0 [Hz]")
-    }
-}
-
-/// The node core.
-#[derive(Debug, Clone)]
-pub struct Arbiter {
-    params: Params,
-}
-
-impl Arbiter {
-    /// A core with validated parameters.
-    pub fn new(params: Params) -> Result<Self, ParamError> {
-        params.validate()?;
-        Ok(Arbiter { params })
-    }
-}
-
-impl NodeCore for Arbiter {
-    fn name(&self) -> &str {
-        NODE_NAME
-    }
-    fn inputs(&self) -> Vec<Port> {
-        vec![Port::of::<OdorBearing>("odor_bearing", Qos::Reliable), Port::of::<PlumeFeatures>("plume_features", Qos::Reliable), Port::of::<OdorEventArray>("odor_events", Qos::Reliable), Port::of::<Vector3Stamped>("wind", Qos::SensorData), Port::of::<Odometry>("odom", Qos::SensorData), Port::of::<Bool>("e_stop", Qos::Latched), Port::of::<Empty>("e_stop_reset", Qos::Reliable), Port::of::<LaserScan>("scan", Qos::SensorData)]
-    }
-    fn outputs(&self) -> Vec<Port> {
-        vec![Port::of::<TwistStamped>("cmd_vel", Qos::Reliable), Port::of::<SearchState>("search_state", Qos::Latched), Port::of::<PointStamped>("source_estimate", Qos::Reliable)]
-    }
-    fn timers(&self) -> Vec<Nanos> {
-        vec![sillage_core::time::nanos(1.0 / self.params.rate)]
-    }
-    fn on_message(&mut self, _now: Nanos, _input: usize, _msg: &Msg, _out: &mut Outbox) {}
-    fn params_yaml(&self) -> serde_yaml::Value {
-        params::to_value(&self.params)
-    }
-    fn set_params_yaml(&mut self, value: &serde_yaml::Value) -> Result<(), ParamError> {
-        params::apply(&mut self.params, value)
-    }
-}
+pub use error::ArbiterError;
+pub use modes::Mode;
+pub use node::{Arbiter, Declared, NODE_NAME};
+pub use params::Params;
+pub use strategy::Strategy;

@@ -1,0 +1,185 @@
+//! Contact decision: whether the robot is in the plume, from rising odor events and from the
+//! plume features, with hysteresis and a loss timeout.
+//!
+//! Contract (thresholds are the `contact.*` parameters):
+//! - an *event hit* is at least `hits_required` rising events (polarity +1, any channel)
+//!   arriving within the last `hit_window` seconds;
+//! - a *feature hit* is a features message with `bout_rate >= bout_rate_enter` or
+//!   `intermittency >= intermittency_enter`; while in contact the lower `*_exit` thresholds
+//!   apply instead (hysteresis: the windowed features decay slowly after the plume is left);
+//! - every hit refreshes the last contact time and the contact point (the robot's odom position
+//!   at that moment); the robot is in contact until `loss_timeout` passes without a hit.
+//!
+//! Times are the node's clock at arrival [ns].
+
+use crate::geometry::Vec2;
+use crate::inputs::{EventsObs, FeaturesObs};
+use crate::params::ContactParams;
+use sillage_core::time::{nanos, secs};
+use sillage_core::Nanos;
+use std::collections::VecDeque;
+
+/// What the last hit was based on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum HitCause {
+    /// Rising odor events.
+    Events,
+    /// The bout rate.
+    BoutRate,
+    /// The intermittency.
+    Intermittency,
+}
+
+impl HitCause {
+    /// A short description for transition reasons.
+    pub fn describe(self) -> &'static str {
+        match self {
+            HitCause::Events => "rising odor events",
+            HitCause::BoutRate => "bout rate above threshold",
+            HitCause::Intermittency => "intermittency above threshold",
+        }
+    }
+}
+
+/// The contact state as strategies see it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ContactView {
+    /// In contact now (a hit within `loss_timeout`).
+    pub in_contact: bool,
+    /// Time since the last hit [s], `None` before the first.
+    pub age: Option<f64>,
+    /// Where the robot was at the last hit (odom) [m], if odometry was known then.
+    pub point: Option<Vec2>,
+    /// Number of hits so far (strategies compare it to spot new hits).
+    pub hits: u64,
+    /// What the last hit was based on.
+    pub cause: Option<HitCause>,
+}
+
+/// The contact detector.
+#[derive(Debug, Clone)]
+pub struct ContactDetector {
+    p: ContactParams,
+    recent: VecDeque<Nanos>,
+    last_hit: Option<Nanos>,
+    point: Option<Vec2>,
+    hits: u64,
+    cause: Option<HitCause>,
+}
+
+impl ContactDetector {
+    /// A detector with no contact yet.
+    pub fn new(p: ContactParams) -> Self {
+        let cap = p.hits_required as usize;
+        ContactDetector { p, recent: VecDeque::with_capacity(cap), last_hit: None, point: None, hits: 0, cause: None }
+    }
+
+    /// Replaces the thresholds, keeping the state.
+    pub fn set_params(&mut self, p: ContactParams) {
+        self.p = p;
+        while self.recent.len() > self.p.hits_required as usize {
+            self.recent.pop_front();
+        }
+    }
+
+    fn hit(&mut self, now: Nanos, at: Option<Vec2>, cause: HitCause) {
+        self.last_hit = Some(now);
+        if at.is_some() {
+            self.point = at;
+        }
+        self.hits += 1;
+        self.cause = Some(cause);
+    }
+
+    /// Whether the robot is in contact at `now`.
+    pub fn in_contact(&self, now: Nanos) -> bool {
+        self.last_hit.is_some_and(|t| now.saturating_sub(t) <= nanos(self.p.loss_timeout))
+    }
+
+    /// Rising events arrived at `now`, the robot being at `at`.
+    pub fn on_events(&mut self, now: Nanos, e: EventsObs, at: Option<Vec2>) {
+        let need = self.p.hits_required as usize;
+        for _ in 0..e.rising.min(self.p.hits_required) {
+            if self.recent.len() == need {
+                self.recent.pop_front();
+            }
+            self.recent.push_back(now);
+        }
+        let window = nanos(self.p.hit_window);
+        if e.rising > 0 && self.recent.len() == need && self.recent.front().is_some_and(|&t| now.saturating_sub(t) <= window) {
+            self.hit(now, at, HitCause::Events);
+        }
+    }
+
+    /// Features arrived at `now`, the robot being at `at`.
+    pub fn on_features(&mut self, now: Nanos, f: &FeaturesObs, at: Option<Vec2>) {
+        let (rate, inter) = if self.in_contact(now) {
+            (self.p.bout_rate_exit, self.p.intermittency_exit)
+        } else {
+            (self.p.bout_rate_enter, self.p.intermittency_enter)
+        };
+        // A zero threshold would make every message a hit; only positive evidence counts.
+        if f.bout_rate > 0.0 && f.bout_rate >= rate {
+            self.hit(now, at, HitCause::BoutRate);
+        } else if f.intermittency > 0.0 && f.intermittency >= inter {
+            self.hit(now, at, HitCause::Intermittency);
+        }
+    }
+
+    /// The state at `now`.
+    pub fn view(&self, now: Nanos) -> ContactView {
+        ContactView {
+            in_contact: self.in_contact(now),
+            age: self.last_hit.map(|t| secs(now.saturating_sub(t))),
+            point: self.point,
+            hits: self.hits,
+            cause: self.cause,
+        }
+    }
+
+    /// Forgets every contact (search restart, clock jump).
+    pub fn reset(&mut self) {
+        *self = ContactDetector::new(self.p.clone());
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use sillage_core::time::SECOND;
+
+    fn feats(rate: f64, inter: f64) -> FeaturesObs {
+        FeaturesObs { bout_rate: rate, intermittency: inter, distance: None }
+    }
+
+    #[test]
+    fn events_need_enough_hits_within_the_window() {
+        let p = ContactParams { hits_required: 3, hit_window: 1.0, ..Default::default() };
+        let mut c = ContactDetector::new(p);
+        c.on_events(0, EventsObs { rising: 2 }, Some(Vec2::new(1.0, 2.0)));
+        assert!(!c.in_contact(0));
+        c.on_events(2 * SECOND, EventsObs { rising: 1 }, None);
+        assert!(!c.in_contact(2 * SECOND), "the first two are outside the 1 s window");
+        c.on_events(2 * SECOND + SECOND / 2, EventsObs { rising: 2 }, Some(Vec2::new(3.0, 0.0)));
+        let v = c.view(2 * SECOND + SECOND / 2);
+        assert!(v.in_contact && v.hits == 1 && v.point == Some(Vec2::new(3.0, 0.0)));
+        // Lost after loss_timeout (2 s default).
+        assert!(c.in_contact(4 * SECOND + SECOND / 2));
+        assert!(!c.in_contact(4 * SECOND + SECOND / 2 + 1));
+    }
+
+    #[test]
+    fn features_use_hysteresis() {
+        let mut c = ContactDetector::new(ContactParams::default());
+        c.on_features(0, &feats(0.2, 0.05), None);
+        assert!(!c.in_contact(0), "0.2 Hz is below the 0.3 Hz entry threshold");
+        c.on_features(0, &feats(0.3, 0.0), None);
+        assert!(c.in_contact(0));
+        c.on_features(SECOND, &feats(0.15, 0.0), None);
+        assert_eq!(c.view(SECOND).age, Some(0.0), "0.15 Hz keeps a contact (exit 0.1 Hz)");
+        c.on_features(2 * SECOND, &feats(0.0, 0.05), None);
+        assert_eq!(c.view(2 * SECOND).cause, Some(HitCause::Intermittency));
+        c.on_features(3 * SECOND, &feats(0.0, 0.0), None);
+        assert_eq!(c.view(3 * SECOND).age, Some(1.0), "no evidence: no refresh");
+    }
+}

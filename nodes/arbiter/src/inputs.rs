@@ -1,0 +1,390 @@
+//! The arbiter's inputs: their order (the port indices), and the checks that turn a message
+//! into a clean observation or an [`ArbiterError`] naming the topic and field.
+//!
+//! Contract of the checks (a message that fails is dropped, counted and diagnosed; it does not
+//! feed its watchdog, so a source that keeps sending garbage ends up stale and halts the robot):
+//! - `wind`: finite x, y, z; frame `frames.base` (or empty: base), or `frames.odom`.
+//! - `odom`: frame `frames.odom` (or empty), child frame `frames.base` (or empty); finite
+//!   position and twist; an orientation whose quaternion norm is within 10 % of 1.
+//! - `odor_bearing`: frame `frames.base` (or empty); `cue` <= NONE; unless NONE, a finite
+//!   bearing and a confidence in [0, 1].
+//! - `plume_features`: finite bout rate >= 0, intermittency in [0, 1]; distance NaN
+//!   (uncalibrated) or finite >= 0; sigma not negative (NaN or +inf: distance unusable).
+//! - `odor_events`: every polarity is +1 or -1.
+//! - `scan`: finite non-zero `angle_increment`, finite `angle_min`, `0 <= range_min <
+//!   range_max`, and at least one beam inside the forward sector. In the sector (REP 117):
+//!   NaN and finite readings outside [range_min, range_max] are ignored, +inf is a clear beam,
+//!   -inf an object too close to measure (distance 0).
+
+use crate::error::ArbiterError;
+use crate::geometry::{wrap_angle, Pose2, Vec2};
+use crate::params::{Frames, ObstacleParams};
+use sillage_core::msg::*;
+use sillage_core::Nanos;
+
+/// The inputs, in port order.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Input {
+    /// `odor_bearing` (OdorBearing).
+    OdorBearing = 0,
+    /// `plume_features` (PlumeFeatures).
+    PlumeFeatures = 1,
+    /// `odor_events` (OdorEventArray).
+    OdorEvents = 2,
+    /// `wind` (Vector3Stamped).
+    Wind = 3,
+    /// `odom` (Odometry).
+    Odom = 4,
+    /// `e_stop` (Bool).
+    EStop = 5,
+    /// `e_stop_reset` (Empty).
+    EStopReset = 6,
+    /// `scan` (LaserScan).
+    Scan = 7,
+}
+
+/// Number of inputs.
+pub const INPUTS: usize = 8;
+
+impl Input {
+    /// Every input in port order.
+    pub const ALL: [Input; INPUTS] = [
+        Input::OdorBearing,
+        Input::PlumeFeatures,
+        Input::OdorEvents,
+        Input::Wind,
+        Input::Odom,
+        Input::EStop,
+        Input::EStopReset,
+        Input::Scan,
+    ];
+
+    /// The input at port index `i`.
+    pub fn from_index(i: usize) -> Option<Input> {
+        Input::ALL.get(i).copied()
+    }
+
+    /// Port index.
+    pub fn index(self) -> usize {
+        self as usize
+    }
+
+    /// Topic name as declared.
+    pub fn topic(self) -> &'static str {
+        match self {
+            Input::OdorBearing => "odor_bearing",
+            Input::PlumeFeatures => "plume_features",
+            Input::OdorEvents => "odor_events",
+            Input::Wind => "wind",
+            Input::Odom => "odom",
+            Input::EStop => "e_stop",
+            Input::EStopReset => "e_stop_reset",
+            Input::Scan => "scan",
+        }
+    }
+}
+
+/// A wind reading: air velocity [m/s], pointing where the air goes to.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct WindObs {
+    /// The horizontal air velocity.
+    pub air: Vec2,
+    /// Whether `air` is in the odom frame (else base_link).
+    pub in_odom: bool,
+}
+
+/// An odometry reading.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct OdomObs {
+    /// Pose of base_link in odom.
+    pub pose: Pose2,
+    /// Planar velocity of base_link in base_link [m/s].
+    pub velocity: Vec2,
+}
+
+/// A decoded bearing.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BearingObs {
+    /// Direction the odor comes from [rad] in base_link, `None` when the cue is NONE.
+    pub bearing: Option<f64>,
+    /// Confidence [0..1] (0 when the cue is NONE).
+    pub confidence: f64,
+    /// Cue constant of OdorBearing.
+    pub cue: u8,
+}
+
+/// Plume features.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FeaturesObs {
+    /// Bout rate [Hz].
+    pub bout_rate: f64,
+    /// Intermittency [0..1].
+    pub intermittency: f64,
+    /// Calibrated distance [m] and its sigma [m], when both are usable numbers.
+    pub distance: Option<(f64, f64)>,
+}
+
+/// Counts of one OdorEventArray.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct EventsObs {
+    /// Rising events (odor onsets).
+    pub rising: u32,
+}
+
+fn frame_ok(frame: &str, expected: &str) -> bool {
+    frame.is_empty() || frame == expected
+}
+
+fn frame_err(topic: Input, frame: &str, expected: &str) -> ArbiterError {
+    ArbiterError::Frame { topic: topic.topic(), frame: frame.to_string(), expected: expected.to_string() }
+}
+
+fn finite(topic: Input, field: &'static str, v: f64) -> Result<f64, ArbiterError> {
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(ArbiterError::field(topic.topic(), field, v, "not finite"))
+    }
+}
+
+/// Checks a wind reading.
+pub fn wind(m: &Vector3Stamped, frames: &Frames) -> Result<WindObs, ArbiterError> {
+    let t = Input::Wind;
+    let x = finite(t, "vector.x", m.vector.x)?;
+    let y = finite(t, "vector.y", m.vector.y)?;
+    finite(t, "vector.z", m.vector.z)?;
+    let f = m.header.frame_id.as_str();
+    let in_odom = if frame_ok(f, &frames.base) {
+        false
+    } else if f == frames.odom {
+        true
+    } else {
+        return Err(frame_err(t, f, &frames.base));
+    };
+    Ok(WindObs { air: Vec2::new(x, y), in_odom })
+}
+
+/// Checks an odometry reading.
+pub fn odom(m: &Odometry, frames: &Frames) -> Result<OdomObs, ArbiterError> {
+    let t = Input::Odom;
+    if !frame_ok(&m.header.frame_id, &frames.odom) {
+        return Err(frame_err(t, &m.header.frame_id, &frames.odom));
+    }
+    if !frame_ok(&m.child_frame_id, &frames.base) {
+        return Err(frame_err(t, &m.child_frame_id, &frames.base));
+    }
+    let p = &m.pose.pose;
+    let x = finite(t, "pose.pose.position.x", p.position.x)?;
+    let y = finite(t, "pose.pose.position.y", p.position.y)?;
+    let q = p.orientation;
+    let norm = (q.x * q.x + q.y * q.y + q.z * q.z + q.w * q.w).sqrt();
+    if !norm.is_finite() || (norm - 1.0).abs() > 0.1 {
+        return Err(ArbiterError::field(t.topic(), "pose.pose.orientation", format!("|q| = {norm}"), "not a unit quaternion"));
+    }
+    let vx = finite(t, "twist.twist.linear.x", m.twist.twist.linear.x)?;
+    let vy = finite(t, "twist.twist.linear.y", m.twist.twist.linear.y)?;
+    Ok(OdomObs { pose: Pose2 { position: Vec2::new(x, y), yaw: q.yaw() }, velocity: Vec2::new(vx, vy) })
+}
+
+/// Checks a bearing.
+pub fn bearing(m: &OdorBearing, frames: &Frames) -> Result<BearingObs, ArbiterError> {
+    let t = Input::OdorBearing;
+    if !frame_ok(&m.header.frame_id, &frames.base) {
+        return Err(frame_err(t, &m.header.frame_id, &frames.base));
+    }
+    if m.cue > OdorBearing::NONE {
+        return Err(ArbiterError::field(t.topic(), "cue", m.cue, "unknown cue (TIMING=0, AMPLITUDE=1, FUSED=2, NONE=3)"));
+    }
+    if m.cue == OdorBearing::NONE {
+        return Ok(BearingObs { bearing: None, confidence: 0.0, cue: m.cue });
+    }
+    let b = finite(t, "bearing", m.bearing)?;
+    if !(m.confidence.is_finite() && (0.0..=1.0).contains(&m.confidence)) {
+        return Err(ArbiterError::field(t.topic(), "confidence", m.confidence, "not in [0, 1]"));
+    }
+    Ok(BearingObs { bearing: Some(wrap_angle(b)), confidence: m.confidence, cue: m.cue })
+}
+
+/// Checks plume features.
+pub fn features(m: &PlumeFeatures) -> Result<FeaturesObs, ArbiterError> {
+    let t = Input::PlumeFeatures.topic();
+    if !(m.bout_rate.is_finite() && m.bout_rate >= 0.0) {
+        return Err(ArbiterError::field(t, "bout_rate", m.bout_rate, "not a finite rate >= 0"));
+    }
+    if !(m.intermittency.is_finite() && (0.0..=1.0).contains(&m.intermittency)) {
+        return Err(ArbiterError::field(t, "intermittency", m.intermittency, "not in [0, 1]"));
+    }
+    if !(m.distance.is_nan() || (m.distance.is_finite() && m.distance >= 0.0)) {
+        return Err(ArbiterError::field(t, "distance", m.distance, "neither NaN (uncalibrated) nor a finite distance >= 0"));
+    }
+    if m.distance_sigma < 0.0 {
+        return Err(ArbiterError::field(t, "distance_sigma", m.distance_sigma, "negative"));
+    }
+    let usable = m.distance.is_finite() && m.distance_sigma.is_finite();
+    Ok(FeaturesObs {
+        bout_rate: m.bout_rate,
+        intermittency: m.intermittency,
+        distance: usable.then_some((m.distance, m.distance_sigma)),
+    })
+}
+
+/// Checks an event array.
+pub fn events(m: &OdorEventArray) -> Result<EventsObs, ArbiterError> {
+    let mut rising = 0u32;
+    for e in &m.events {
+        match e.polarity {
+            OdorEvent::RISING => rising = rising.saturating_add(1),
+            OdorEvent::FALLING => {}
+            p => return Err(ArbiterError::field(Input::OdorEvents.topic(), "events[].polarity", p, "not +1 or -1")),
+        }
+    }
+    Ok(EventsObs { rising })
+}
+
+/// Checks a scan and returns the nearest valid range in the forward sector [m] (+inf: clear).
+pub fn scan_sector(m: &LaserScan, p: &ObstacleParams) -> Result<f64, ArbiterError> {
+    let t = Input::Scan.topic();
+    let inc = f64::from(m.angle_increment);
+    if !inc.is_finite() || inc == 0.0 {
+        return Err(ArbiterError::field(t, "angle_increment", inc, "not a finite non-zero angle"));
+    }
+    let a0 = f64::from(m.angle_min);
+    if !a0.is_finite() {
+        return Err(ArbiterError::field(t, "angle_min", a0, "not finite"));
+    }
+    let (rmin, rmax) = (f64::from(m.range_min), f64::from(m.range_max));
+    if !(rmin.is_finite() && rmax.is_finite() && rmin >= 0.0 && rmax > rmin) {
+        return Err(ArbiterError::field(t, "range_min/range_max", format!("{rmin}/{rmax}"), "need 0 <= range_min < range_max"));
+    }
+    let mut beams = 0usize;
+    let mut nearest = f64::INFINITY;
+    for (i, &r) in m.ranges.iter().enumerate() {
+        let angle = wrap_angle(a0 + inc * i as f64 + p.scan_yaw);
+        if angle.abs() > p.sector_half_angle {
+            continue;
+        }
+        beams += 1;
+        let r = f64::from(r);
+        if r == f64::NEG_INFINITY {
+            nearest = 0.0;
+        } else if r.is_finite() && r >= rmin && r <= rmax {
+            nearest = nearest.min(r);
+        }
+    }
+    if beams == 0 {
+        return Err(ArbiterError::field(t, "ranges", m.ranges.len(), "no beam inside the forward sector"));
+    }
+    Ok(nearest)
+}
+
+/// Outcome of the per-topic stamp check.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum StampCheck {
+    /// Newer than the last accepted stamp (or the first, or unstamped).
+    Fresh,
+    /// Same stamp as the last accepted message: dropped.
+    Duplicate,
+    /// Older than the last accepted stamp by less than [`STAMP_RESTART`]: dropped.
+    OutOfOrder,
+    /// Older by [`STAMP_RESTART`] or more: taken as the source's clock restarting; accepted.
+    Restart,
+}
+
+/// A backward stamp step at least this long is a restart of the source's clock [ns].
+pub const STAMP_RESTART: Nanos = 1_000_000_000;
+
+/// Per-topic header-stamp order: duplicated and reordered messages are dropped. A zero stamp
+/// means "unstamped" and always passes.
+#[derive(Debug, Clone, Default)]
+pub struct StampOrder {
+    last: [Option<Nanos>; INPUTS],
+}
+
+impl StampOrder {
+    /// Checks `stamp` on `input` and remembers it when accepted.
+    pub fn check(&mut self, input: Input, stamp: Nanos) -> StampCheck {
+        if stamp == 0 {
+            return StampCheck::Fresh;
+        }
+        let slot = &mut self.last[input.index()];
+        let verdict = match *slot {
+            None => StampCheck::Fresh,
+            Some(last) if stamp > last => StampCheck::Fresh,
+            Some(last) if stamp == last => StampCheck::Duplicate,
+            Some(last) if last.saturating_sub(stamp) >= STAMP_RESTART => StampCheck::Restart,
+            Some(_) => StampCheck::OutOfOrder,
+        };
+        if matches!(verdict, StampCheck::Fresh | StampCheck::Restart) {
+            *slot = Some(stamp);
+        }
+        verdict
+    }
+
+    /// Forgets every stamp (after a clock jump of the node's own clock).
+    pub fn reset(&mut self) {
+        self.last = [None; INPUTS];
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn scan(ranges: Vec<f32>) -> LaserScan {
+        LaserScan {
+            angle_min: -1.0,
+            angle_max: 1.0,
+            angle_increment: 2.0 / (ranges.len() as f32 - 1.0),
+            range_min: 0.1,
+            range_max: 10.0,
+            ranges,
+            ..Default::default()
+        }
+    }
+
+    #[test]
+    fn scan_sector_follows_rep117_special_values() {
+        // 5 beams at -1, -0.5, 0, 0.5, 1 rad; the default sector is |angle| <= 0.5.
+        let p = ObstacleParams::default();
+        assert_eq!(scan_sector(&scan(vec![0.2, 5.0, 3.0, 4.0, 0.2]), &p), Ok(3.0));
+        // REP 117: +inf = nothing in range, NaN = erroneous (ignored), -inf = too close.
+        assert_eq!(scan_sector(&scan(vec![0.2, f32::INFINITY, f32::NAN, 0.05, 0.2]), &p), Ok(f64::INFINITY));
+        assert_eq!(scan_sector(&scan(vec![9.0, 9.0, f32::NEG_INFINITY, 9.0, 9.0]), &p), Ok(0.0));
+        // The scanner mounted backwards: its beam at pi is base_link's forward.
+        let back = ObstacleParams { scan_yaw: std::f64::consts::PI, ..p.clone() };
+        let m = LaserScan { angle_min: 3.0, angle_increment: 0.1, range_min: 0.1, range_max: 5.0, ranges: vec![1.5; 3], ..Default::default() };
+        assert_eq!(scan_sector(&m, &back), Ok(1.5));
+        let bad = LaserScan { angle_increment: 0.0, ..scan(vec![1.0, 1.0]) };
+        assert!(scan_sector(&bad, &p).is_err());
+        assert!(scan_sector(&scan(vec![]), &p).is_err());
+    }
+
+    #[test]
+    fn stamp_order_drops_duplicates_and_small_reorders() {
+        let mut s = StampOrder::default();
+        assert_eq!(s.check(Input::Wind, 100), StampCheck::Fresh);
+        assert_eq!(s.check(Input::Wind, 100), StampCheck::Duplicate);
+        assert_eq!(s.check(Input::Wind, 50), StampCheck::OutOfOrder);
+        assert_eq!(s.check(Input::Odom, 50), StampCheck::Fresh);
+        assert_eq!(s.check(Input::Wind, 0), StampCheck::Fresh);
+        assert_eq!(s.check(Input::Wind, 5 * STAMP_RESTART), StampCheck::Fresh);
+        assert_eq!(s.check(Input::Wind, 10), StampCheck::Restart);
+        assert_eq!(s.check(Input::Wind, 20), StampCheck::Fresh);
+    }
+
+    #[test]
+    fn field_errors_name_topic_and_field() {
+        let f = Frames::default();
+        let m = OdorBearing { cue: 7, ..Default::default() };
+        let e = bearing(&m, &f).expect_err("bad cue");
+        assert!(e.to_string().contains("odor_bearing") && e.to_string().contains("cue"), "{e}");
+        let w = Vector3Stamped { header: Header::new(0, "map"), vector: Vector3::default() };
+        assert!(wind(&w, &f).expect_err("frame").to_string().contains("'map'"));
+        let o = Odometry { pose: PoseWithCovariance { pose: Pose { orientation: Quaternion { w: 0.0, ..Default::default() }, ..Default::default() }, ..Default::default() }, ..Default::default() };
+        assert!(odom(&o, &f).expect_err("zero quaternion").to_string().contains("orientation"));
+        let pf = PlumeFeatures { intermittency: 1.5, ..Default::default() };
+        assert!(features(&pf).expect_err("range").to_string().contains("intermittency"));
+        let ok = PlumeFeatures { bout_rate: 1.0, distance: f64::NAN, distance_sigma: f64::NAN, ..Default::default() };
+        assert_eq!(features(&ok).map(|f| f.distance), Ok(None));
+    }
+}

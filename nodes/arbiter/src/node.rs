@@ -1,0 +1,521 @@
+//! The arbiter node core: inputs in, one guarded command per control tick out.
+//!
+//! Contract:
+//! - every message is checked ([`crate::inputs`]); malformed ones are counted, diagnosed and
+//!   dropped, as are duplicated and reordered stamps; accepted ones feed their watchdog;
+//! - `e_stop = true` latches the guard and publishes a zero `cmd_vel` and a HALTED
+//!   `search_state` in the same call, not only at the next tick;
+//! - each control tick decides the mode ([`crate::modes`] precedence), steps the strategy
+//!   unless halted or declared, turns its motion into a command ([`crate::drive`]), passes it
+//!   through the guard ([`crate::guard`]) and publishes it; `search_state` goes out on every
+//!   transition and at least every `state_period`; `source_estimate` once, on declaration;
+//! - the node's clock jumping back (a restarted simulation or bag loop) resets the
+//!   watchdogs, stamp orders, wind, contact, declaration evidence and the strategy; the e-stop
+//!   latch and a declaration stay.
+
+use crate::contact::ContactDetector;
+use crate::declare::Declarer;
+use crate::drive::{Cmd, Drive, Motion};
+use crate::error::ArbiterError;
+use crate::geometry::{wrap_angle, Vec2};
+use crate::guard::{Guard, ResetOutcome};
+use crate::inputs::{self, BearingObs, Input, OdomObs, StampOrder};
+use crate::modes::{Mode, ModeMachine};
+use crate::params::Params;
+use crate::stats::InputStats;
+use crate::strategy::{self, BearingView, Context, Strategy};
+use crate::watchdog::{InputSet, Watchdog};
+use crate::wind::WindEstimator;
+use sillage_core::msg::*;
+use sillage_core::params::{self, NodeParams, ParamError};
+use sillage_core::time::nanos;
+use sillage_core::{Msg, Nanos, NodeCore, Outbox, Port, Qos};
+
+/// Default ROS node name.
+pub const NODE_NAME: &str = "arbiter";
+
+/// Output index of `cmd_vel`.
+pub const OUT_CMD_VEL: usize = 0;
+/// Output index of `search_state`.
+pub const OUT_SEARCH_STATE: usize = 1;
+/// Output index of `source_estimate`.
+pub const OUT_SOURCE_ESTIMATE: usize = 2;
+
+/// Why the robot is halted.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum HaltCause {
+    /// The e-stop latch.
+    EStop,
+    /// These required inputs are stale.
+    Stale(InputSet),
+}
+
+/// A declared source.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Declared {
+    /// When [ns].
+    pub at: Nanos,
+    /// Where [m, odom].
+    pub estimate: Vec2,
+}
+
+/// The arbiter node core.
+#[derive(Debug)]
+pub struct Arbiter {
+    pub(crate) params: Params,
+    pub(crate) strategy: Box<dyn Strategy>,
+    custom_strategy: bool,
+    drive: Drive,
+    pub(crate) guard: Guard,
+    pub(crate) watchdog: Watchdog,
+    stamps: StampOrder,
+    wind: WindEstimator,
+    pub(crate) contact: ContactDetector,
+    declarer: Declarer,
+    pub(crate) modes: ModeMachine,
+    odom: Option<OdomObs>,
+    bearing: Option<(BearingObs, Option<f64>)>,
+    last_bearing_odom: Option<f64>,
+    pub(crate) nearest: Option<f64>,
+    scan_seen: bool,
+    halt: Option<HaltCause>,
+    note: Option<&'static str>,
+    pub(crate) declared: Option<Declared>,
+    pub(crate) stats: InputStats,
+    last_now: Option<Nanos>,
+    last_state_pub: Option<Nanos>,
+    pub(crate) heading_target: f64,
+}
+
+impl Arbiter {
+    /// A core with validated parameters and the built-in strategy they select.
+    pub fn new(params: Params) -> Result<Self, ParamError> {
+        params.validate()?;
+        let s = strategy::build(&params);
+        Ok(Arbiter::assemble(params, s, false))
+    }
+
+    /// A core driven by a strategy of your own (see [`crate::strategy`]); the guard, the
+    /// watchdogs and the declaration apply as with the built-ins.
+    pub fn with_strategy(params: Params, strategy: Box<dyn Strategy>) -> Result<Self, ParamError> {
+        params.validate()?;
+        Ok(Arbiter::assemble(params, strategy, true))
+    }
+
+    fn assemble(params: Params, strategy: Box<dyn Strategy>, custom_strategy: bool) -> Self {
+        Arbiter {
+            drive: Drive { p: params.drive.clone(), base: params.base },
+            guard: Guard::new(&params),
+            watchdog: Watchdog::default(),
+            stamps: StampOrder::default(),
+            wind: WindEstimator::new(params.wind.clone()),
+            contact: ContactDetector::new(params.contact.clone()),
+            declarer: Declarer::new(params.declare.clone()),
+            modes: ModeMachine::default(),
+            odom: None,
+            bearing: None,
+            last_bearing_odom: None,
+            nearest: None,
+            scan_seen: false,
+            halt: None,
+            note: None,
+            declared: None,
+            stats: InputStats::default(),
+            last_now: None,
+            last_state_pub: None,
+            heading_target: f64::NAN,
+            strategy,
+            custom_strategy,
+            params,
+        }
+    }
+
+    /// The parameters in use.
+    pub fn params(&self) -> &Params {
+        &self.params
+    }
+
+    /// The current mode.
+    pub fn mode(&self) -> Mode {
+        self.modes.mode()
+    }
+
+    /// Why the current mode was entered.
+    pub fn reason(&self) -> &str {
+        self.modes.reason()
+    }
+
+    /// The declared source, if any.
+    pub fn declared(&self) -> Option<Declared> {
+        self.declared
+    }
+
+    /// Whether the e-stop latch is set.
+    pub fn e_stop_latched(&self) -> bool {
+        self.guard.latch.is_latched()
+    }
+
+    /// The last command sent.
+    pub fn last_command(&self) -> Cmd {
+        self.guard.last()
+    }
+
+    /// The input counters.
+    pub fn input_stats(&self) -> &InputStats {
+        &self.stats
+    }
+
+    /// The inputs whose staleness halts the robot.
+    pub fn required_inputs(&self) -> InputSet {
+        let mut s = InputSet::default();
+        for i in [Input::Odom, Input::OdorBearing, Input::PlumeFeatures, Input::OdorEvents] {
+            s.insert(i);
+        }
+        if self.strategy.uses_wind() {
+            s.insert(Input::Wind);
+        }
+        if self.scan_in_use() {
+            s.insert(Input::Scan);
+        }
+        if self.params.watchdog.e_stop > 0.0 {
+            s.insert(Input::EStop);
+        }
+        s
+    }
+
+    fn scan_in_use(&self) -> bool {
+        self.params.obstacle.enabled || self.scan_seen
+    }
+
+    fn observe_clock(&mut self, now: Nanos) {
+        if self.last_now.is_some_and(|last| now < last) {
+            self.stats.clock_jumps += 1;
+            self.stats.last_problem = Some((now, "the node's clock jumped back: inputs and search state reset".into()));
+            self.watchdog.reset();
+            self.stamps.reset();
+            self.wind.reset();
+            self.contact.reset();
+            self.declarer.reset();
+            self.strategy.reset();
+            self.last_state_pub = None;
+        }
+        self.last_now = Some(now);
+    }
+
+    fn accept<T>(&mut self, now: Nanos, input: Input, stamp: &Time, parsed: Result<T, ArbiterError>, apply: impl FnOnce(&mut Self, T)) {
+        match parsed {
+            Err(e) => self.stats.malformed(Some(input), now, &e),
+            Ok(v) => {
+                let check = self.stamps.check(input, stamp.to_nanos());
+                if self.stats.stamp(input, now, check) {
+                    self.watchdog.feed(input, now);
+                    apply(self, v);
+                }
+            }
+        }
+    }
+
+    fn position(&self) -> Option<Vec2> {
+        self.odom.map(|o| o.pose.position)
+    }
+
+    fn on_bearing(&mut self, b: BearingObs) {
+        let odom_heading = match (b.bearing, self.odom) {
+            (Some(bb), Some(o)) => Some(wrap_angle(o.pose.yaw + bb)),
+            _ => None,
+        };
+        if b.bearing.is_some() && b.confidence >= self.params.surge.min_confidence {
+            self.last_bearing_odom = odom_heading.or(self.last_bearing_odom);
+        }
+        self.bearing = Some((b, odom_heading));
+    }
+
+    fn bearing_view(&self, yaw: f64) -> Option<BearingView> {
+        let (b, odom_heading) = self.bearing?;
+        let body = b.bearing?;
+        if b.confidence < self.params.surge.min_confidence {
+            return None;
+        }
+        let odom = odom_heading.unwrap_or(wrap_angle(yaw + body));
+        Some(BearingView { odom, body: wrap_angle(odom - yaw), confidence: b.confidence })
+    }
+
+    fn publish_cmd(&self, now: Nanos, c: Cmd, out: &mut Outbox) {
+        if self.params.cmd_vel_stamped {
+            out.publish(OUT_CMD_VEL, c.stamped(now, &self.params.frames.base));
+        } else {
+            out.publish(OUT_CMD_VEL, c.twist());
+        }
+    }
+
+    fn publish_state(&mut self, now: Nanos, out: &mut Outbox) {
+        let s = SearchState {
+            header: Header::new(now, &self.params.frames.odom),
+            mode: self.modes.mode().code(),
+            reason: self.modes.reason().to_string(),
+            heading_target: self.heading_target,
+            contact_age: self.contact.view(now).age.unwrap_or(f64::NAN),
+        };
+        out.publish(OUT_SEARCH_STATE, s);
+        self.last_state_pub = Some(now);
+    }
+
+    fn halt_reason(&self, cause: HaltCause, now: Nanos) -> String {
+        match cause {
+            HaltCause::EStop if self.guard.latch.is_cleared() => "e-stop latched: released, waiting for e_stop_reset".into(),
+            HaltCause::EStop => "e-stop latched: e_stop is true".into(),
+            HaltCause::Stale(set) => format!("watchdog: {}", self.watchdog.describe(set, &self.params.watchdog, now)),
+        }
+    }
+
+    fn on_e_stop(&mut self, now: Nanos, pressed: bool, out: &mut Outbox) {
+        self.watchdog.feed(Input::EStop, now);
+        self.stats.inputs[Input::EStop.index()].accepted += 1;
+        let was_cleared = self.guard.latch.is_cleared();
+        self.guard.latch.on_e_stop(pressed);
+        if pressed {
+            let zero = self.guard.emergency_stop(now);
+            self.publish_cmd(now, zero, out);
+            if self.halt != Some(HaltCause::EStop) || self.modes.mode() != Mode::Halted || was_cleared {
+                self.halt = Some(HaltCause::EStop);
+                self.heading_target = f64::NAN;
+                self.modes.enter(now, Mode::Halted, "e-stop pressed".into());
+                self.publish_state(now, out);
+            }
+        } else if self.guard.latch.is_cleared() && !was_cleared && self.halt == Some(HaltCause::EStop) {
+            self.modes.enter(now, Mode::Halted, self.halt_reason(HaltCause::EStop, now));
+            self.publish_state(now, out);
+        }
+    }
+
+    fn on_reset(&mut self, now: Nanos) {
+        self.stats.inputs[Input::EStopReset.index()].accepted += 1;
+        match self.guard.latch.on_reset() {
+            ResetOutcome::Released => self.note = Some("e-stop reset"),
+            ResetOutcome::Refused => {
+                self.stats.last_problem = Some((now, "e_stop_reset refused: e_stop has not been false since it was pressed".into()));
+            }
+            ResetOutcome::NotLatched => {
+                if self.declared.take().is_some() {
+                    self.strategy.reset();
+                    self.contact.reset();
+                    self.declarer.reset();
+                    self.note = Some("search restarted by e_stop_reset");
+                }
+            }
+        }
+    }
+
+    fn context(&self, now: Nanos, odom: &OdomObs) -> Context {
+        Context {
+            now,
+            pose: odom.pose,
+            wind: self.wind.view(),
+            bearing: self.bearing_view(odom.pose.yaw),
+            contact: self.contact.view(now),
+            period: self.params.period(),
+        }
+    }
+
+    /// One control tick at `now`.
+    fn tick(&mut self, now: Nanos, out: &mut Outbox) {
+        let stale = self.watchdog.stale(self.required_inputs(), &self.params.watchdog, now);
+        let halt = if self.guard.latch.is_latched() {
+            Some(HaltCause::EStop)
+        } else if !stale.is_empty() || self.odom.is_none() {
+            let mut s = stale;
+            if self.odom.is_none() {
+                s.insert(Input::Odom);
+            }
+            Some(HaltCause::Stale(s))
+        } else {
+            None
+        };
+        let mut changed = false;
+        let mut motion = Motion::Stop;
+        if let Some(cause) = halt {
+            if self.halt != Some(cause) || self.modes.mode() != Mode::Halted {
+                let reason = self.halt_reason(cause, now);
+                self.modes.enter(now, Mode::Halted, reason);
+                changed = true;
+            }
+            self.halt = Some(cause);
+        } else if let Some(odom) = self.odom {
+            let note = match self.halt.take() {
+                Some(HaltCause::EStop) => Some("e-stop reset"),
+                Some(HaltCause::Stale(_)) => Some("inputs fresh again"),
+                None => None,
+            };
+            let note = self.note.take().or(note);
+            if self.declared.is_some() {
+                if self.modes.mode() != Mode::Declared {
+                    self.modes.enter(now, Mode::Declared, format!("{}: source already declared", note.unwrap_or("resumed")));
+                    changed = true;
+                }
+            } else {
+                let ctx = self.context(now, &odom);
+                let decision = self.strategy.step(&ctx);
+                if let Some(reason) = self.declarer.ready(now).filter(|_| ctx.contact.in_contact) {
+                    let upwind = ctx.wind.upwind.or(ctx.wind.last_upwind);
+                    let estimate = self.declarer.estimate(&odom.pose, self.last_bearing_odom, upwind);
+                    self.declared = Some(Declared { at: now, estimate });
+                    self.modes.enter(now, Mode::Declared, reason);
+                    let p = PointStamped { header: Header::new(now, &self.params.frames.odom), point: Point { x: estimate.x, y: estimate.y, z: 0.0 } };
+                    out.publish(OUT_SOURCE_ESTIMATE, p);
+                    changed = true;
+                } else {
+                    let mode = Mode::from(decision.phase);
+                    if mode != self.modes.mode() {
+                        let reason = match note {
+                            Some(n) => format!("{n}: {}", decision.reason),
+                            None => decision.reason.into_owned(),
+                        };
+                        self.modes.enter(now, mode, reason);
+                        changed = true;
+                    }
+                    motion = decision.motion;
+                }
+            }
+        }
+        self.heading_target = motion.heading_target();
+        let pose = self.odom.map(|o| o.pose);
+        let target = match &pose {
+            Some(p) => self.drive.command(&motion, p),
+            None => Cmd::ZERO,
+        };
+        let nearest = if self.scan_in_use() { Some(self.nearest.unwrap_or(0.0)) } else { None };
+        let cmd = self.guard.apply(now, target, pose.as_ref(), nearest, &self.drive);
+        self.publish_cmd(now, cmd, out);
+        let due = self.last_state_pub.is_none_or(|t| now.saturating_sub(t) >= nanos(self.params.state_period));
+        if changed || due {
+            self.publish_state(now, out);
+        }
+    }
+
+    fn reconfigure(&mut self, next: Params) {
+        let strategy_changed = next.strategy != self.params.strategy
+            || next.surge != self.params.surge
+            || next.cast != self.params.cast
+            || next.zigzag != self.params.zigzag
+            || next.spiral != self.params.spiral
+            || next.reactive != self.params.reactive;
+        if strategy_changed && !self.custom_strategy {
+            self.strategy = strategy::build(&next);
+            self.note = Some("parameters changed");
+        }
+        if next.declare != self.params.declare {
+            self.declarer.set_params(next.declare.clone());
+        }
+        self.drive = Drive { p: next.drive.clone(), base: next.base };
+        self.guard.set_params(&next);
+        self.contact.set_params(next.contact.clone());
+        self.wind.set_params(next.wind.clone());
+        self.params = next;
+    }
+}
+
+impl NodeCore for Arbiter {
+    fn name(&self) -> &str {
+        NODE_NAME
+    }
+
+    fn inputs(&self) -> Vec<Port> {
+        vec![
+            Port::of::<OdorBearing>("odor_bearing", Qos::Reliable),
+            Port::of::<PlumeFeatures>("plume_features", Qos::Reliable),
+            Port::of::<OdorEventArray>("odor_events", Qos::Reliable),
+            Port::of::<Vector3Stamped>("wind", Qos::SensorData),
+            Port::of::<Odometry>("odom", Qos::SensorData),
+            Port::of::<Bool>("e_stop", Qos::Latched),
+            Port::of::<Empty>("e_stop_reset", Qos::Reliable),
+            Port::of::<LaserScan>("scan", Qos::SensorData),
+        ]
+    }
+
+    fn outputs(&self) -> Vec<Port> {
+        let cmd = if self.params.cmd_vel_stamped {
+            Port::of::<TwistStamped>("cmd_vel", Qos::Reliable)
+        } else {
+            Port::of::<Twist>("cmd_vel", Qos::Reliable)
+        };
+        vec![cmd, Port::of::<SearchState>("search_state", Qos::Latched), Port::of::<PointStamped>("source_estimate", Qos::Reliable)]
+    }
+
+    fn timers(&self) -> Vec<Nanos> {
+        vec![nanos(self.params.period())]
+    }
+
+    fn on_message(&mut self, now: Nanos, input: usize, msg: &Msg, out: &mut Outbox) {
+        self.observe_clock(now);
+        let frames = self.params.frames.clone();
+        match (Input::from_index(input), msg) {
+            (Some(Input::OdorBearing), Msg::OdorBearing(m)) => {
+                self.accept(now, Input::OdorBearing, &m.header.stamp, inputs::bearing(m, &frames), |s, b| s.on_bearing(b));
+            }
+            (Some(Input::PlumeFeatures), Msg::PlumeFeatures(m)) => {
+                self.accept(now, Input::PlumeFeatures, &m.header.stamp, inputs::features(m), |s, f| {
+                    let at = s.position();
+                    s.contact.on_features(now, &f, at);
+                    let in_contact = s.contact.in_contact(now);
+                    s.declarer.on_features(now, &f, in_contact);
+                });
+            }
+            (Some(Input::OdorEvents), Msg::OdorEventArray(m)) => {
+                self.accept(now, Input::OdorEvents, &m.header.stamp, inputs::events(m), |s, e| {
+                    let at = s.position();
+                    s.contact.on_events(now, e, at);
+                });
+            }
+            (Some(Input::Wind), Msg::Vector3Stamped(m)) => {
+                self.accept(now, Input::Wind, &m.header.stamp, inputs::wind(m, &frames), |s, w| {
+                    let odom = s.odom;
+                    s.wind.on_wind(now, w, odom.as_ref());
+                });
+            }
+            (Some(Input::Odom), Msg::Odometry(m)) => {
+                self.accept(now, Input::Odom, &m.header.stamp, inputs::odom(m, &frames), |s, o| s.odom = Some(o));
+            }
+            (Some(Input::Scan), Msg::LaserScan(m)) => {
+                let parsed = inputs::scan_sector(m, &self.params.obstacle);
+                self.accept(now, Input::Scan, &m.header.stamp, parsed, |s, d| {
+                    s.nearest = Some(d);
+                    s.scan_seen = true;
+                });
+            }
+            (Some(Input::EStop), Msg::Bool(b)) => self.on_e_stop(now, b.data, out),
+            (Some(Input::EStopReset), Msg::Empty(_)) => self.on_reset(now),
+            (which, other) => {
+                let expected = which.map(|i| self.inputs()[i.index()].type_name).unwrap_or("no input");
+                let e = ArbiterError::WrongType { index: input, got: other.type_name(), expected };
+                self.stats.malformed(which, now, &e);
+            }
+        }
+    }
+
+    fn on_timer(&mut self, now: Nanos, _timer: usize, out: &mut Outbox) {
+        self.observe_clock(now);
+        self.tick(now, out);
+    }
+
+    fn diagnostics(&self, now: Nanos, out: &mut Vec<DiagnosticStatus>) {
+        crate::diagnostics::report(self, now, out);
+    }
+
+    fn params_yaml(&self) -> serde_yaml::Value {
+        params::to_value(&self.params)
+    }
+
+    fn set_params_yaml(&mut self, value: &serde_yaml::Value) -> Result<(), ParamError> {
+        let mut next = self.params.clone();
+        params::apply(&mut next, value)?;
+        let fixed = |key: &str| ParamError::Invalid { key: key.to_string(), reason: "can only be set at start-up (restart the node)".into() };
+        if next.rate != self.params.rate {
+            return Err(fixed("rate"));
+        }
+        if next.cmd_vel_stamped != self.params.cmd_vel_stamped {
+            return Err(fixed("cmd_vel_stamped"));
+        }
+        self.reconfigure(next);
+        Ok(())
+    }
+}
