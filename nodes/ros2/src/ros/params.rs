@@ -1,0 +1,90 @@
+//! The bridge between r2r's parameter services and a hosted core: r2r's
+//! `make_derived_parameter_handler` calls [`ParamBridge`] for `ros2 param set/get` and at
+//! registration, and every change goes through [`NodeRuntime::set_param`], so an invalid
+//! value is refused (the caller gets `successful: false` with the reason), logged, and the old
+//! value kept.
+
+use crate::param_value::ParamValue;
+use crate::runtime::NodeRuntime;
+use r2r::indexmap::IndexMap;
+use r2r::{Parameter, ParameterValue, RosParams};
+use std::sync::{Arc, Mutex, MutexGuard, PoisonError};
+
+/// Locks a runtime; a panic elsewhere leaves the data usable (every method keeps it valid).
+pub(crate) fn lock(rt: &Mutex<NodeRuntime>) -> MutexGuard<'_, NodeRuntime> {
+    rt.lock().unwrap_or_else(PoisonError::into_inner)
+}
+
+/// r2r's value as ours.
+pub(crate) fn from_r2r(v: &ParameterValue) -> ParamValue {
+    match v {
+        ParameterValue::NotSet => ParamValue::NotSet,
+        ParameterValue::Bool(b) => ParamValue::Bool(*b),
+        ParameterValue::Integer(i) => ParamValue::Integer(*i),
+        ParameterValue::Double(f) => ParamValue::Double(*f),
+        ParameterValue::String(s) => ParamValue::String(s.clone()),
+        ParameterValue::BoolArray(a) => ParamValue::BoolArray(a.clone()),
+        ParameterValue::ByteArray(a) => ParamValue::ByteArray(a.clone()),
+        ParameterValue::IntegerArray(a) => ParamValue::IntegerArray(a.clone()),
+        ParameterValue::DoubleArray(a) => ParamValue::DoubleArray(a.clone()),
+        ParameterValue::StringArray(a) => ParamValue::StringArray(a.clone()),
+    }
+}
+
+/// Our value as r2r's.
+pub(crate) fn to_r2r(v: &ParamValue) -> ParameterValue {
+    match v {
+        ParamValue::NotSet => ParameterValue::NotSet,
+        ParamValue::Bool(b) => ParameterValue::Bool(*b),
+        ParamValue::Integer(i) => ParameterValue::Integer(*i),
+        ParamValue::Double(f) => ParameterValue::Double(*f),
+        ParamValue::String(s) => ParameterValue::String(s.clone()),
+        ParamValue::BoolArray(a) => ParameterValue::BoolArray(a.clone()),
+        ParamValue::ByteArray(a) => ParameterValue::ByteArray(a.clone()),
+        ParamValue::IntegerArray(a) => ParameterValue::IntegerArray(a.clone()),
+        ParamValue::DoubleArray(a) => ParameterValue::DoubleArray(a.clone()),
+        ParamValue::StringArray(a) => ParameterValue::StringArray(a.clone()),
+    }
+}
+
+/// The parameters of one hosted node as r2r sees them.
+pub(crate) struct ParamBridge {
+    pub(crate) rt: Arc<Mutex<NodeRuntime>>,
+    pub(crate) logger: String,
+}
+
+impl RosParams for ParamBridge {
+    /// Declares every parameter of the core with its current value (defaults merged with the
+    /// values the node was started with). ROS's own (`use_sim_time`) stay as r2r loaded them.
+    fn register_parameters(&mut self, _prefix: &str, _param: Option<Parameter>, params: &mut IndexMap<String, Parameter>) -> r2r::Result<()> {
+        for (k, v) in lock(&self.rt).flat_params() {
+            params.insert(k, Parameter::new(to_r2r(&v)));
+        }
+        Ok(())
+    }
+
+    fn get_parameter(&mut self, name: &str) -> r2r::Result<ParameterValue> {
+        lock(&self.rt).param(name).map(|v| to_r2r(&v)).ok_or_else(|| r2r::Error::InvalidParameterName { name: name.to_string() })
+    }
+
+    fn set_parameter(&mut self, name: &str, value: &ParameterValue) -> r2r::Result<()> {
+        let v = from_r2r(value);
+        let result = lock(&self.rt).set_param(name, v.clone());
+        match result {
+            Ok(now) => {
+                r2r::log_info!(&self.logger, "parameter {name} set to {}", now.display());
+                Ok(())
+            }
+            Err(e) => {
+                r2r::log_warn!(&self.logger, "refused parameter change {name} := {}: {e}; the old value stays", v.display());
+                Err(r2r::Error::ParameterValueConv { name: name.to_string(), msg: e.to_string() })
+            }
+        }
+    }
+
+    fn check_parameter(&self, name: &str, value: &ParameterValue) -> r2r::Result<()> {
+        lock(&self.rt)
+            .check_param(name, from_r2r(value))
+            .map_err(|e| r2r::Error::ParameterValueConv { name: name.to_string(), msg: e.to_string() })
+    }
+}
