@@ -38,7 +38,11 @@ fn bench_demo_second(c: &mut Criterion) {
             for _ in 0..100 {
                 world.step(0.01);
             }
-            black_box(world.drain_chem().count() + world.drain_wind().count() + world.drain_scans().count())
+            black_box(
+                world.drain_chem().count()
+                    + world.drain_wind().count()
+                    + world.drain_scans().count(),
+            )
         })
     });
     g.finish();

@@ -24,12 +24,21 @@ pub struct AnemometerParams {
 
 impl Default for AnemometerParams {
     fn default() -> Self {
-        Self { position: [0.0, 0.0, 0.3], noise_std: 0.02, sample_rate: 10.0 }
+        Self {
+            position: [0.0, 0.0, 0.3],
+            noise_std: 0.02,
+            sample_rate: 10.0,
+        }
     }
 }
 
 /// Noise-free relative air velocity [m/s] in base_link.
-pub fn relative_air_velocity(params: &AnemometerParams, wind_world: [f64; 2], pose: &Pose2, twist: &Twist2) -> [f64; 3] {
+pub fn relative_air_velocity(
+    params: &AnemometerParams,
+    wind_world: [f64; 2],
+    pose: &Pose2,
+    twist: &Twist2,
+) -> [f64; 3] {
     let r = params.position;
     // Body-frame velocity of the sensor point: (vx - wz ry, vy + wz rx).
     let v_body = [twist.vx - twist.wz * r[1], twist.vy + twist.wz * r[0]];
@@ -61,20 +70,34 @@ mod tests {
     use std::f64::consts::FRAC_PI_2;
 
     fn at_origin() -> AnemometerParams {
-        AnemometerParams { position: [0.0; 3], noise_std: 0.0, sample_rate: 10.0 }
+        AnemometerParams {
+            position: [0.0; 3],
+            noise_std: 0.0,
+            sample_rate: 10.0,
+        }
     }
 
     #[test]
     fn static_robot_reads_wind_in_body_frame() {
         // Wind to +x (world), robot facing +y: in base_link the air goes to -y (to the right).
-        let v = relative_air_velocity(&at_origin(), [1.0, 0.0], &Pose2::new(0.0, 0.0, FRAC_PI_2), &Twist2::default());
+        let v = relative_air_velocity(
+            &at_origin(),
+            [1.0, 0.0],
+            &Pose2::new(0.0, 0.0, FRAC_PI_2),
+            &Twist2::default(),
+        );
         assert_abs_diff_eq!(v[0], 0.0, epsilon = 1e-12);
         assert_abs_diff_eq!(v[1], -1.0, epsilon = 1e-12);
     }
 
     #[test]
     fn driving_into_still_air_reads_head_wind() {
-        let v = relative_air_velocity(&at_origin(), [0.0, 0.0], &Pose2::new(3.0, 1.0, 0.7), &Twist2::new(0.5, 0.0, 0.0));
+        let v = relative_air_velocity(
+            &at_origin(),
+            [0.0, 0.0],
+            &Pose2::new(3.0, 1.0, 0.7),
+            &Twist2::new(0.5, 0.0, 0.0),
+        );
         assert_abs_diff_eq!(v[0], -0.5, epsilon = 1e-12);
         assert_abs_diff_eq!(v[1], 0.0, epsilon = 1e-12);
     }
@@ -82,8 +105,16 @@ mod tests {
     #[test]
     fn rotation_moves_an_offset_sensor() {
         // Sensor 0.2 m ahead, turning left at 1 rad/s: it moves to +y at 0.2 m/s.
-        let p = AnemometerParams { position: [0.2, 0.0, 0.3], ..at_origin() };
-        let v = relative_air_velocity(&p, [0.0, 0.0], &Pose2::default(), &Twist2::new(0.0, 0.0, 1.0));
+        let p = AnemometerParams {
+            position: [0.2, 0.0, 0.3],
+            ..at_origin()
+        };
+        let v = relative_air_velocity(
+            &p,
+            [0.0, 0.0],
+            &Pose2::default(),
+            &Twist2::new(0.0, 0.0, 1.0),
+        );
         assert_abs_diff_eq!(v[1], -0.2, epsilon = 1e-12);
     }
 
@@ -91,11 +122,27 @@ mod tests {
     fn noise_has_requested_std() {
         use rand::SeedableRng;
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(4);
-        let p = AnemometerParams { noise_std: 0.05, ..at_origin() };
+        let p = AnemometerParams {
+            noise_std: 0.05,
+            ..at_origin()
+        };
         let n = 20_000;
-        let xs: Vec<f64> = (0..n).map(|_| measure(&p, [1.0, 0.0], &Pose2::default(), &Twist2::default(), &mut rng)[0]).collect();
+        let xs: Vec<f64> = (0..n)
+            .map(|_| {
+                measure(
+                    &p,
+                    [1.0, 0.0],
+                    &Pose2::default(),
+                    &Twist2::default(),
+                    &mut rng,
+                )[0]
+            })
+            .collect();
         let mean = xs.iter().sum::<f64>() / n as f64;
         let std = (xs.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / n as f64).sqrt();
-        assert!((mean - 1.0).abs() < 0.002 && (std - 0.05).abs() < 0.002, "{mean} {std}");
+        assert!(
+            (mean - 1.0).abs() < 0.002 && (std - 0.05).abs() < 0.002,
+            "{mean} {std}"
+        );
     }
 }

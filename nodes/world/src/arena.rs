@@ -20,7 +20,12 @@ pub struct Aabb {
 impl Aabb {
     /// A rectangle from its bounds [m].
     pub const fn new(x_min: f64, y_min: f64, x_max: f64, y_max: f64) -> Self {
-        Self { x_min, y_min, x_max, y_max }
+        Self {
+            x_min,
+            y_min,
+            x_max,
+            y_max,
+        }
     }
 
     /// True when the point is inside or on the border.
@@ -136,7 +141,10 @@ mod tests {
     use std::f64::consts::{FRAC_PI_2, FRAC_PI_4, PI};
 
     fn room() -> Arena {
-        Arena { bounds: Aabb::new(0.0, 0.0, 10.0, 6.0), obstacles: vec![Aabb::new(6.0, 2.0, 7.0, 4.0)] }
+        Arena {
+            bounds: Aabb::new(0.0, 0.0, 10.0, 6.0),
+            obstacles: vec![Aabb::new(6.0, 2.0, 7.0, 4.0)],
+        }
     }
 
     #[test]
@@ -147,7 +155,11 @@ mod tests {
         assert_abs_diff_eq!(a.ray_cast([2.0, 3.0], PI), 2.0, epsilon = 1e-12);
         assert_abs_diff_eq!(a.ray_cast([2.0, 3.0], FRAC_PI_2), 3.0, epsilon = 1e-12);
         // Diagonal from (1, 1) at 45 deg reaches the top wall y = 6 after 5 sqrt 2.
-        assert_abs_diff_eq!(a.ray_cast([1.0, 1.0], FRAC_PI_4), 5.0 * 2f64.sqrt(), epsilon = 1e-12);
+        assert_abs_diff_eq!(
+            a.ray_cast([1.0, 1.0], FRAC_PI_4),
+            5.0 * 2f64.sqrt(),
+            epsilon = 1e-12
+        );
         // Passing above the box (y = 5) reaches the far wall.
         assert_abs_diff_eq!(a.ray_cast([2.0, 5.0], 0.0), 8.0, epsilon = 1e-12);
     }

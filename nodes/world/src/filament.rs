@@ -53,7 +53,13 @@ pub struct FilamentParams {
 
 impl Default for FilamentParams {
     fn default() -> Self {
-        Self { release_rate: 10.0, initial_radius: 0.03, growth_rate: 0.004, relative_diffusivity: 0.01, max_age: 60.0 }
+        Self {
+            release_rate: 10.0,
+            initial_radius: 0.03,
+            growth_rate: 0.004,
+            relative_diffusivity: 0.01,
+            max_age: 60.0,
+        }
     }
 }
 
@@ -108,6 +114,7 @@ struct CellIndex {
     starts: Vec<u32>,
     items: Vec<Packed>,
     cell_of: Vec<u32>,
+    fill: Vec<u32>,
     max_cut: f64,
 }
 
@@ -126,13 +133,18 @@ impl CellIndex {
             starts: vec![0; nx * ny + 1],
             items: Vec::new(),
             cell_of: Vec::new(),
+            fill: Vec::new(),
             max_cut: 0.0,
         }
     }
 
     fn cell_xy(&self, x: f64, y: f64) -> (usize, usize) {
-        let cx = ((x - self.x0) / self.cell).floor().clamp(0.0, (self.nx - 1) as f64) as usize;
-        let cy = ((y - self.y0) / self.cell).floor().clamp(0.0, (self.ny - 1) as f64) as usize;
+        let cx = ((x - self.x0) / self.cell)
+            .floor()
+            .clamp(0.0, (self.nx - 1) as f64) as usize;
+        let cy = ((y - self.y0) / self.cell)
+            .floor()
+            .clamp(0.0, (self.ny - 1) as f64) as usize;
         (cx, cy)
     }
 
@@ -151,14 +163,15 @@ impl CellIndex {
         }
         self.items.clear();
         self.items.resize(filaments.len(), Packed::default());
-        let mut fill = self.starts.clone();
+        self.fill.clear();
+        self.fill.extend_from_slice(&self.starts);
         self.max_cut = 0.0;
         for (f, &c) in filaments.iter().zip(&self.cell_of) {
             let src = &sources[f.source];
             let r2 = src.radius_sq(now - f.birth);
             let cut2 = CUTOFF_SIGMAS * CUTOFF_SIGMAS * r2;
             self.max_cut = self.max_cut.max(cut2.sqrt());
-            let slot = &mut fill[c as usize];
+            let slot = &mut self.fill[c as usize];
             self.items[*slot as usize] = Packed {
                 x: f.pos[0],
                 y: f.pos[1],
@@ -214,7 +227,12 @@ pub struct FilamentPlume {
 impl FilamentPlume {
     /// Creates an empty plume (nothing released yet) at time 0 inside `bounds`; at most
     /// `max_filaments` filaments are kept.
-    pub fn new(sources: Vec<FilamentSource>, bounds: Aabb, max_filaments: usize, rng: ChaCha8Rng) -> Self {
+    pub fn new(
+        sources: Vec<FilamentSource>,
+        bounds: Aabb,
+        max_filaments: usize,
+        rng: ChaCha8Rng,
+    ) -> Self {
         let largest = sources
             .iter()
             .map(|s| CUTOFF_SIGMAS * s.radius_sq(s.params.max_age).sqrt())
@@ -273,13 +291,24 @@ impl FilamentPlume {
                 let mut pos = src.position;
                 let travel = t_end - tr;
                 let u_rel = wind.velocity(pos, 0.5 * (tr + t_end));
-                random_walk(&mut pos, u_rel, travel, src.params.relative_diffusivity, &mut self.rng);
-                self.filaments.push(Filament { pos, birth: tr, source: s });
+                random_walk(
+                    &mut pos,
+                    u_rel,
+                    travel,
+                    src.params.relative_diffusivity,
+                    &mut self.rng,
+                );
+                self.filaments.push(Filament {
+                    pos,
+                    birth: tr,
+                    source: s,
+                });
             }
         }
         let (bounds, sources) = (&self.bounds, &self.sources);
         self.filaments.retain(|f| {
-            t_end - f.birth <= sources[f.source].params.max_age && bounds.contains([f.pos[0], f.pos[1]])
+            t_end - f.birth <= sources[f.source].params.max_age
+                && bounds.contains([f.pos[0], f.pos[1]])
         });
         if self.filaments.len() > self.max_filaments {
             let excess = self.filaments.len() - self.max_filaments;
@@ -314,7 +343,10 @@ impl FilamentPlume {
 
     /// Total mass of the live filaments [g].
     pub fn total_mass(&self) -> f64 {
-        self.filaments.iter().map(|f| self.sources[f.source].mass_per_filament()).sum()
+        self.filaments
+            .iter()
+            .map(|f| self.sources[f.source].mass_per_filament())
+            .sum()
     }
 }
 
@@ -322,7 +354,11 @@ impl FilamentPlume {
 fn random_walk(pos: &mut [f64; 3], u: [f64; 2], dt: f64, k: f64, rng: &mut ChaCha8Rng) {
     let s = (2.0 * k * dt).sqrt();
     let (nx, ny, nz): (f64, f64, f64) = if s > 0.0 {
-        (rng.sample(StandardNormal), rng.sample(StandardNormal), rng.sample(StandardNormal))
+        (
+            rng.sample(StandardNormal),
+            rng.sample(StandardNormal),
+            rng.sample(StandardNormal),
+        )
     } else {
         (0.0, 0.0, 0.0)
     };
@@ -349,14 +385,29 @@ mod tests {
 
     fn wind(speed: f64, std: f64, seed: u64) -> WindField {
         WindField::new(
-            WindParams { speed, direction: 0.0, direction_std: std, speed_std: 0.0, correlation_time: 4.0 },
+            WindParams {
+                speed,
+                direction: 0.0,
+                direction_std: std,
+                speed_std: 0.0,
+                correlation_time: 4.0,
+            },
             ChaCha8Rng::seed_from_u64(seed),
         )
     }
 
     fn plume(max: usize) -> FilamentPlume {
-        let src = FilamentSource { position: [1.0, 5.0, 0.3], rate: 1e-3, params: params() };
-        FilamentPlume::new(vec![src], Aabb::new(0.0, 0.0, 20.0, 10.0), max, ChaCha8Rng::seed_from_u64(5))
+        let src = FilamentSource {
+            position: [1.0, 5.0, 0.3],
+            rate: 1e-3,
+            params: params(),
+        };
+        FilamentPlume::new(
+            vec![src],
+            Aabb::new(0.0, 0.0, 20.0, 10.0),
+            max,
+            ChaCha8Rng::seed_from_u64(5),
+        )
     }
 
     fn run(p: &mut FilamentPlume, w: &mut WindField, seconds: f64, dt: f64) {
@@ -381,7 +432,11 @@ mod tests {
         for i in 0..n {
             for j in 0..n {
                 for k in 0..(n / 2) {
-                    let q = [1.0 - 0.6 + (i as f64 + 0.5) * h, 5.0 - 0.6 + (j as f64 + 0.5) * h, (k as f64 + 0.5) * h];
+                    let q = [
+                        1.0 - 0.6 + (i as f64 + 0.5) * h,
+                        5.0 - 0.6 + (j as f64 + 0.5) * h,
+                        (k as f64 + 0.5) * h,
+                    ];
                     total += p.concentration_brute_force(q) * h * h * h;
                 }
             }
@@ -405,7 +460,10 @@ mod tests {
                 let peak = 1e-3 / 10.0 / (2.0 * PI).powf(1.5) / 0.05f64.powi(3);
                 // Culling only drops tails below exp(-8) of a filament's peak (x2 for the image).
                 assert!(fast <= slow * (1.0 + 1e-12), "{q:?}: {fast} > {slow}");
-                assert!(slow - fast <= 1e-2 * slow + 7e-4 * peak, "{q:?}: {fast} vs {slow}");
+                assert!(
+                    slow - fast <= 1e-2 * slow + 7e-4 * peak,
+                    "{q:?}: {fast} vs {slow}"
+                );
                 if slow > 0.0 {
                     checked += 1;
                 }

@@ -64,7 +64,10 @@ pub fn briggs_sigmas(class: StabilityClass, terrain: Terrain, x: f64) -> (f64, f
             (sy, sz)
         }
         Terrain::Urban => match class {
-            A | B => (0.32 * x * isqrt(0.0004), 0.24 * x * (1.0 + 0.001 * x).sqrt()),
+            A | B => (
+                0.32 * x * isqrt(0.0004),
+                0.24 * x * (1.0 + 0.001 * x).sqrt(),
+            ),
             C => (0.22 * x * isqrt(0.0004), 0.20 * x),
             D => (0.16 * x * isqrt(0.0004), 0.14 * x * isqrt(0.0003)),
             E | F => (0.11 * x * isqrt(0.0004), 0.08 * x * isqrt(0.0015)),
@@ -75,7 +78,15 @@ pub fn briggs_sigmas(class: StabilityClass, terrain: Terrain, x: f64) -> (f64, f
 /// Concentration [g/m^3] of a reflected Gaussian plume for given sigmas [m]: source rate
 /// `q` [g/s], wind speed `u` [m/s], crosswind offset `y` [m], receptor height `z` [m],
 /// effective source height `h` [m]. Returns 0 when u or a sigma is not positive.
-pub fn plume_concentration(q: f64, u: f64, sigma_y: f64, sigma_z: f64, y: f64, z: f64, h: f64) -> f64 {
+pub fn plume_concentration(
+    q: f64,
+    u: f64,
+    sigma_y: f64,
+    sigma_z: f64,
+    y: f64,
+    z: f64,
+    h: f64,
+) -> f64 {
     if u <= 0.0 || sigma_y <= 0.0 || sigma_z <= 0.0 {
         return 0.0;
     }
@@ -150,13 +161,25 @@ mod tests {
         ];
         for (class, sy, sz) in rural {
             let (y, z) = briggs_sigmas(class, Terrain::Rural, 1000.0);
-            assert!((y - sy).abs() < 0.006 && (z - sz).abs() < 0.006, "rural {class:?}: {y} {z}");
+            assert!(
+                (y - sy).abs() < 0.006 && (z - sz).abs() < 0.006,
+                "rural {class:?}: {y} {z}"
+            );
         }
-        let urban = [(A, 270.45, 339.41), (B, 270.45, 339.41), (C, 185.93, 200.00),
-            (D, 135.22, 122.79), (E, 92.97, 50.60), (F, 92.97, 50.60)];
+        let urban = [
+            (A, 270.45, 339.41),
+            (B, 270.45, 339.41),
+            (C, 185.93, 200.00),
+            (D, 135.22, 122.79),
+            (E, 92.97, 50.60),
+            (F, 92.97, 50.60),
+        ];
         for (class, sy, sz) in urban {
             let (y, z) = briggs_sigmas(class, Terrain::Urban, 1000.0);
-            assert!((y - sy).abs() < 0.006 && (z - sz).abs() < 0.006, "urban {class:?}: {y} {z}");
+            assert!(
+                (y - sy).abs() < 0.006 && (z - sz).abs() < 0.006,
+                "urban {class:?}: {y} {z}"
+            );
         }
     }
 
@@ -182,8 +205,16 @@ mod tests {
             min_sigma: 0.01,
             sources: vec![([0.0, 0.0, 50.0], 100.0)],
         };
-        assert_relative_eq!(plume.concentration([-50.0, 1000.0, 0.0]), c50, max_relative = 1e-12);
-        assert_eq!(plume.concentration([0.0, -10.0, 0.0]), 0.0, "upwind is clean");
+        assert_relative_eq!(
+            plume.concentration([-50.0, 1000.0, 0.0]),
+            c50,
+            max_relative = 1e-12
+        );
+        assert_eq!(
+            plume.concentration([0.0, -10.0, 0.0]),
+            0.0,
+            "upwind is clean"
+        );
     }
 
     /// Worked example of Fundamentals of Air Pollution, 3rd ed. (1994),
@@ -191,10 +222,17 @@ mod tests {
     /// sigmas: x = 0.26 / 0.28 / 0.30 km gives 1.53e-5 / 1.56e-5 / 1.55e-5 g/m^3 (3 figures).
     #[test]
     fn book_worked_example_class_b() {
-        let cases = [(45.9, 26.2, 1.53e-5), (49.0, 28.2, 1.56e-5), (52.2, 30.1, 1.55e-5)];
+        let cases = [
+            (45.9, 26.2, 1.53e-5),
+            (49.0, 28.2, 1.56e-5),
+            (52.2, 30.1, 1.55e-5),
+        ];
         for (sy, sz, expected) in cases {
             let c = plume_concentration(0.37, 2.0, sy, sz, 0.0, 0.0, 40.0);
-            assert!((c - expected).abs() <= 0.005e-5, "sy {sy}: {c:e} vs {expected:e}");
+            assert!(
+                (c - expected).abs() <= 0.005e-5,
+                "sy {sy}: {c:e} vs {expected:e}"
+            );
         }
     }
 

@@ -50,7 +50,10 @@ impl Default for LaserParams {
 impl LaserParams {
     /// Number of rays: round((angle_max - angle_min) / angle_increment) + 1.
     pub fn ray_count(&self) -> usize {
-        ((self.angle_max - self.angle_min) / self.angle_increment).round().max(0.0) as usize + 1
+        ((self.angle_max - self.angle_min) / self.angle_increment)
+            .round()
+            .max(0.0) as usize
+            + 1
     }
 }
 
@@ -121,7 +124,10 @@ mod tests {
     #[test]
     fn scan_in_a_square_room() {
         // 4 m x 4 m room, robot in the centre facing +y, scanner 0.1 m ahead.
-        let arena = Arena { bounds: Aabb::new(0.0, 0.0, 4.0, 4.0), obstacles: vec![] };
+        let arena = Arena {
+            bounds: Aabb::new(0.0, 0.0, 4.0, 4.0),
+            obstacles: vec![],
+        };
         let params = LaserParams {
             angle_min: -PI / 2.0,
             angle_max: PI / 2.0,
@@ -133,7 +139,13 @@ mod tests {
             sample_rate: 10.0,
         };
         let mut rng = ChaCha8Rng::seed_from_u64(0);
-        let s = scan(&params, &arena, &Pose2::new(2.0, 2.0, FRAC_PI_2), 5, &mut rng);
+        let s = scan(
+            &params,
+            &arena,
+            &Pose2::new(2.0, 2.0, FRAC_PI_2),
+            5,
+            &mut rng,
+        );
         assert_eq!(s.ranges.len(), 5);
         // Scanner at (2, 2.1). Rays (world): 0 (+x) 2.0 -> +inf (beyond 1.95);
         // 45 deg: min((4-2)/c, (4-2.1)/s) = 1.9 sqrt 2 -> +inf; +y: 1.9;
@@ -150,7 +162,10 @@ mod tests {
     fn scan_sees_a_box_and_near_returns() {
         let arena = Arena {
             bounds: Aabb::new(0.0, 0.0, 10.0, 10.0),
-            obstacles: vec![Aabb::new(3.0, 4.0, 4.0, 6.0), Aabb::new(1.0, 5.01, 2.0, 6.0)],
+            obstacles: vec![
+                Aabb::new(3.0, 4.0, 4.0, 6.0),
+                Aabb::new(1.0, 5.01, 2.0, 6.0),
+            ],
         };
         let params = LaserParams {
             angle_min: 0.0,
@@ -165,6 +180,10 @@ mod tests {
         let mut rng = ChaCha8Rng::seed_from_u64(0);
         let s = scan(&params, &arena, &Pose2::new(1.5, 5.0, 0.0), 0, &mut rng);
         assert!((s.ranges[0] - 1.5).abs() < 1e-6, "box face at x = 3");
-        assert_eq!(s.ranges[1], f32::NEG_INFINITY, "box 0.01 m away is below range_min");
+        assert_eq!(
+            s.ranges[1],
+            f32::NEG_INFINITY,
+            "box 0.01 m away is below range_min"
+        );
     }
 }

@@ -78,7 +78,10 @@ pub struct MoxSensor {
 impl MoxSensor {
     /// A sensor equilibrated in clean air (Rs = R0).
     pub fn new(params: MoxParams) -> Self {
-        Self { params, response: 1.0 }
+        Self {
+            params,
+            response: 1.0,
+        }
     }
 
     /// Parameters.
@@ -99,7 +102,11 @@ impl MoxSensor {
     /// Advances the dynamics by `dt` [s] with concentration `c` [g/m^3] at the sensor.
     pub fn update(&mut self, c: f64, dt: f64) {
         let target = self.params.target_response(c);
-        let tau = if target > self.response { self.params.tau_rise } else { self.params.tau_decay };
+        let tau = if target > self.response {
+            self.params.tau_rise
+        } else {
+            self.params.tau_decay
+        };
         self.response += (target - self.response) * (1.0 - (-dt / tau).exp());
     }
 
@@ -132,7 +139,11 @@ mod tests {
 
     /// Defaults (beta 0.5, tau 1.8 / 11.1 s, R0 50 kohm, RL 10 kohm, 5 V) without noise or ADC.
     fn params() -> MoxParams {
-        MoxParams { adc_bits: 0, noise_std: 0.0, ..MoxParams::default() }
+        MoxParams {
+            adc_bits: 0,
+            noise_std: 0.0,
+            ..MoxParams::default()
+        }
     }
 
     /// Power law with beta = 0.5: quadrupling C halves Rs (project references, MOX sensors;
@@ -186,12 +197,21 @@ mod tests {
     fn step_response_times() {
         let levels = [0.1, 1.0 - (-1.0f64).exp(), 0.9];
         let rise = crossing_times("rise", &levels);
-        println!("rise: t10 {:.4} s, t63 {:.4} s, t90 {:.4} s, 10-90 {:.4} s", rise[0], rise[1], rise[2], rise[2] - rise[0]);
+        println!(
+            "rise: t10 {:.4} s, t63 {:.4} s, t90 {:.4} s, 10-90 {:.4} s",
+            rise[0],
+            rise[1],
+            rise[2],
+            rise[2] - rise[0]
+        );
         assert!((rise[1] - 1.8).abs() < 1e-3);
         assert!((rise[2] - 4.145).abs() < 1e-3);
         assert!((rise[2] - rise[0] - 3.955).abs() < 1e-3);
         let decay = crossing_times("decay", &levels);
-        println!("decay: t63 {:.4} s, t90 {:.4} s (tau_decay 11.1 s)", decay[1], decay[2]);
+        println!(
+            "decay: t63 {:.4} s, t90 {:.4} s (tau_decay 11.1 s)",
+            decay[1], decay[2]
+        );
         assert!((decay[1] - 11.1).abs() < 1e-3);
         assert!((decay[2] - 11.1 * 10f64.ln()).abs() < 1e-3);
     }
@@ -213,15 +233,22 @@ mod tests {
         let mut rng = ChaCha8Rng::seed_from_u64(1);
         let s = MoxSensor::new(params());
         assert_relative_eq!(s.read(&mut rng), 50_000.0, max_relative = 1e-9);
-        let q = MoxSensor::new(MoxParams { adc_bits: 10, ..params() });
+        let q = MoxSensor::new(MoxParams {
+            adc_bits: 10,
+            ..params()
+        });
         let r = q.read(&mut rng);
         // V = 5 * 10k / 60k = 0.8333 V -> code round(0.16667 * 1023) = 171 -> Rs = (1023/171 - 1) 10k.
         assert_relative_eq!(r, (1023.0 / 171.0 - 1.0) * 10_000.0, max_relative = 1e-12);
-        let noisy = MoxSensor::new(MoxParams { noise_std: 0.01, ..params() });
+        let noisy = MoxSensor::new(MoxParams {
+            noise_std: 0.01,
+            ..params()
+        });
         let reads: Vec<f64> = (0..2000).map(|_| noisy.read(&mut rng)).collect();
         let mean = reads.iter().sum::<f64>() / reads.len() as f64;
         // dRs/dV = -Vc RL / V^2 = -72 kohm/V at 0.8333 V: 0.01 V noise -> about 720 ohm std.
-        let std = (reads.iter().map(|r| (r - mean).powi(2)).sum::<f64>() / reads.len() as f64).sqrt();
+        let std =
+            (reads.iter().map(|r| (r - mean).powi(2)).sum::<f64>() / reads.len() as f64).sqrt();
         assert!((std - 720.0).abs() < 60.0, "std {std}");
         assert!((mean - 50_000.0).abs() < 60.0, "mean {mean}");
     }

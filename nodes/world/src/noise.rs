@@ -70,7 +70,11 @@ mod tests {
             .map(|w| (w[0] - mean) * (w[lag] - mean))
             .sum::<f64>()
             / (n - lag) as f64;
-        assert!((var.sqrt() - std).abs() < 0.02 * std / 0.3 + 0.01, "std {}", var.sqrt());
+        assert!(
+            (var.sqrt() - std).abs() < 0.02 * std / 0.3 + 0.01,
+            "std {}",
+            var.sqrt()
+        );
         let rho = cov / var;
         assert!((rho - (-1.0f64).exp()).abs() < 0.03, "rho(tau) = {rho}");
         assert!(mean.abs() < 0.03, "mean {mean}");

@@ -38,7 +38,12 @@ pub struct RobotLimits {
 
 impl Default for RobotLimits {
     fn default() -> Self {
-        Self { max_linear_speed: 0.5, max_angular_speed: 1.5, max_linear_accel: 1.0, max_angular_accel: 3.0 }
+        Self {
+            max_linear_speed: 0.5,
+            max_angular_speed: 1.5,
+            max_linear_accel: 1.0,
+            max_angular_accel: 3.0,
+        }
     }
 }
 
@@ -49,9 +54,17 @@ const CONTACT_ITERATIONS: usize = 12;
 /// displacement = dt sinc(wz dt / 2) R(yaw + wz dt / 2) (vx, vy).
 pub fn integrate_pose(pose: &Pose2, tw: &Twist2, dt: f64) -> Pose2 {
     let half = 0.5 * tw.wz * dt;
-    let sinc = if half.abs() < 1e-6 { 1.0 - half * half / 6.0 } else { half.sin() / half };
+    let sinc = if half.abs() < 1e-6 {
+        1.0 - half * half / 6.0
+    } else {
+        half.sin() / half
+    };
     let d = rotate([tw.vx * dt * sinc, tw.vy * dt * sinc], pose.yaw + half);
-    Pose2::new(pose.x + d[0], pose.y + d[1], wrap_angle(pose.yaw + tw.wz * dt))
+    Pose2::new(
+        pose.x + d[0],
+        pose.y + d[1],
+        wrap_angle(pose.yaw + tw.wz * dt),
+    )
 }
 
 /// A simulated mobile base.
@@ -146,9 +159,18 @@ impl Robot {
         target.wz = target.wz.clamp(-l.max_angular_speed, l.max_angular_speed);
         let (dvx, dvy) = (target.vx - self.twist.vx, target.vy - self.twist.vy);
         let dv = dvx.hypot(dvy);
-        let k = if dv > l.max_linear_accel * dt { l.max_linear_accel * dt / dv } else { 1.0 };
-        let dw = (target.wz - self.twist.wz).clamp(-l.max_angular_accel * dt, l.max_angular_accel * dt);
-        Twist2::new(self.twist.vx + k * dvx, self.twist.vy + k * dvy, self.twist.wz + dw)
+        let k = if dv > l.max_linear_accel * dt {
+            l.max_linear_accel * dt / dv
+        } else {
+            1.0
+        };
+        let dw =
+            (target.wz - self.twist.wz).clamp(-l.max_angular_accel * dt, l.max_angular_accel * dt);
+        Twist2::new(
+            self.twist.vx + k * dvx,
+            self.twist.vy + k * dvy,
+            self.twist.wz + dw,
+        )
     }
 
     /// Advances the robot by `dt` [s] in `arena`.
@@ -205,7 +227,10 @@ mod tests {
     }
 
     fn open_arena() -> Arena {
-        Arena { bounds: Aabb::new(-100.0, -100.0, 100.0, 100.0), obstacles: vec![] }
+        Arena {
+            bounds: Aabb::new(-100.0, -100.0, 100.0, 100.0),
+            obstacles: vec![],
+        }
     }
 
     /// Closed form of the unicycle for constant (v, w) from the origin facing +x:
@@ -220,7 +245,11 @@ mod tests {
             assert_abs_diff_eq!(p.yaw, wrap_angle(w * t), epsilon = 1e-12);
         }
         // Straight line.
-        let p = integrate_pose(&Pose2::new(1.0, 1.0, PI / 2.0), &Twist2::new(2.0, 0.0, 0.0), 1.5);
+        let p = integrate_pose(
+            &Pose2::new(1.0, 1.0, PI / 2.0),
+            &Twist2::new(2.0, 0.0, 0.0),
+            1.5,
+        );
         assert_abs_diff_eq!(p.x, 1.0, epsilon = 1e-12);
         assert_abs_diff_eq!(p.y, 4.0, epsilon = 1e-12);
     }
@@ -253,7 +282,11 @@ mod tests {
 
     #[test]
     fn limits_clamp_velocity_and_acceleration() {
-        let lim = RobotLimits { max_linear_accel: 0.5, max_angular_accel: 1.0, ..limits() };
+        let lim = RobotLimits {
+            max_linear_accel: 0.5,
+            max_angular_accel: 1.0,
+            ..limits()
+        };
         let mut r = Robot::new(DriveKind::DiffDrive, lim, 0.2, Pose2::default());
         r.set_command(Twist2::new(3.0, 1.0, -5.0));
         r.step(&open_arena(), 0.1);
@@ -278,8 +311,16 @@ mod tests {
 
     #[test]
     fn wall_stops_robot_and_counts_once() {
-        let arena = Arena { bounds: Aabb::new(0.0, 0.0, 5.0, 5.0), obstacles: vec![Aabb::new(3.0, 0.0, 4.0, 5.0)] };
-        let mut r = Robot::new(DriveKind::DiffDrive, limits(), 0.25, Pose2::new(1.0, 2.5, 0.0));
+        let arena = Arena {
+            bounds: Aabb::new(0.0, 0.0, 5.0, 5.0),
+            obstacles: vec![Aabb::new(3.0, 0.0, 4.0, 5.0)],
+        };
+        let mut r = Robot::new(
+            DriveKind::DiffDrive,
+            limits(),
+            0.25,
+            Pose2::new(1.0, 2.5, 0.0),
+        );
         r.set_command(Twist2::new(1.0, 0.0, 0.0));
         for _ in 0..400 {
             r.step(&arena, 0.01);

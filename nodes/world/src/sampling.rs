@@ -12,7 +12,10 @@ impl SampleClock {
     /// A clock at `rate` [Hz] (> 0); the period is rounded to whole nanoseconds.
     pub fn new(rate: f64) -> Self {
         let period_ns = ((1e9 / rate).round() as u64).max(1);
-        Self { period_ns, count: 1 }
+        Self {
+            period_ns,
+            count: 1,
+        }
     }
 
     /// Time of the next sample [ns].

@@ -106,7 +106,11 @@ pub struct MeanderSpec {
 
 impl Default for MeanderSpec {
     fn default() -> Self {
-        Self { direction_std: 0.0, speed_std: 0.0, correlation_time: default_correlation_time() }
+        Self {
+            direction_std: 0.0,
+            speed_std: 0.0,
+            correlation_time: default_correlation_time(),
+        }
     }
 }
 
@@ -218,8 +222,15 @@ impl Scenario {
             let key = e.path().to_string();
             let message = e.into_inner().to_string();
             // serde_yaml already prefixes some messages with the path: keep it once.
-            let message = message.strip_prefix(&format!("{key}: ")).map(str::to_owned).unwrap_or(message);
-            WorldError::Parse { file: file.to_owned(), key, message }
+            let message = message
+                .strip_prefix(&format!("{key}: "))
+                .map(str::to_owned)
+                .unwrap_or(message);
+            WorldError::Parse {
+                file: file.to_owned(),
+                key,
+                message,
+            }
         })?;
         scenario.validate(file)?;
         Ok(scenario)
@@ -227,7 +238,10 @@ impl Scenario {
 
     /// Reads, parses and validates a scenario file.
     pub fn from_path(path: &Path) -> Result<Self, WorldError> {
-        let text = std::fs::read_to_string(path).map_err(|source| WorldError::Read { file: path.to_owned(), source })?;
+        let text = std::fs::read_to_string(path).map_err(|source| WorldError::Read {
+            file: path.to_owned(),
+            source,
+        })?;
         Self::from_yaml_str(&text, &path.display().to_string())
     }
 
@@ -236,7 +250,11 @@ impl Scenario {
         let a = &self.arena;
         Arena {
             bounds: Aabb::new(a.min[0], a.min[1], a.max[0], a.max[1]),
-            obstacles: a.obstacles.iter().map(|b| Aabb::new(b.min[0], b.min[1], b.max[0], b.max[1])).collect(),
+            obstacles: a
+                .obstacles
+                .iter()
+                .map(|b| Aabb::new(b.min[0], b.min[1], b.max[0], b.max[1]))
+                .collect(),
         }
     }
 
@@ -255,7 +273,11 @@ impl Scenario {
     pub fn filament_sources(&self) -> Vec<FilamentSource> {
         self.sources
             .iter()
-            .map(|s| FilamentSource { position: s.position, rate: s.release_rate, params: s.filaments.clone() })
+            .map(|s| FilamentSource {
+                position: s.position,
+                rate: s.release_rate,
+                params: s.filaments.clone(),
+            })
             .collect()
     }
 

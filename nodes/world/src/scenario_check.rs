@@ -11,7 +11,11 @@ struct Checker<'a> {
 
 impl Checker<'_> {
     fn fail(&self, key: impl Into<String>, reason: impl Into<String>) -> WorldError {
-        WorldError::Invalid { file: self.file.to_owned(), key: key.into(), reason: reason.into() }
+        WorldError::Invalid {
+            file: self.file.to_owned(),
+            key: key.into(),
+            reason: reason.into(),
+        }
     }
 
     fn finite(&self, key: &str, v: &[f64]) -> Result<(), WorldError> {
@@ -44,7 +48,10 @@ impl Checker<'_> {
         if min[0] < max[0] && min[1] < max[1] {
             Ok(())
         } else {
-            Err(self.fail(key, format!("min {min:?} must be below max {max:?} on both axes")))
+            Err(self.fail(
+                key,
+                format!("min {min:?} must be below max {max:?} on both axes"),
+            ))
         }
     }
 }
@@ -56,14 +63,20 @@ pub(crate) fn validate(s: &Scenario, file: &str) -> Result<(), WorldError> {
     c.positive("success_radius", s.success_radius)?;
     c.positive("physics_dt", s.physics_dt)?;
     if s.physics_dt > 1.0 {
-        return Err(c.fail("physics_dt", format!("must be <= 1 s, got {}", s.physics_dt)));
+        return Err(c.fail(
+            "physics_dt",
+            format!("must be <= 1 s, got {}", s.physics_dt),
+        ));
     }
     c.rect("arena", s.arena.min, s.arena.max)?;
     let arena = s.arena();
     for (i, b) in s.arena.obstacles.iter().enumerate() {
         let key = format!("arena.obstacles[{i}]");
         c.rect(&key, b.min, b.max)?;
-        let inside = b.max[0] > s.arena.min[0] && b.min[0] < s.arena.max[0] && b.max[1] > s.arena.min[1] && b.min[1] < s.arena.max[1];
+        let inside = b.max[0] > s.arena.min[0]
+            && b.min[0] < s.arena.max[0]
+            && b.max[1] > s.arena.min[1]
+            && b.min[1] < s.arena.max[1];
         if !inside {
             return Err(c.fail(key, "obstacle lies entirely outside the arena"));
         }
@@ -72,7 +85,10 @@ pub(crate) fn validate(s: &Scenario, file: &str) -> Result<(), WorldError> {
     c.finite("wind.direction", &[s.wind.direction])?;
     c.non_negative("wind.meander.direction_std", s.wind.meander.direction_std)?;
     c.non_negative("wind.meander.speed_std", s.wind.meander.speed_std)?;
-    c.non_negative("wind.meander.correlation_time", s.wind.meander.correlation_time)?;
+    c.non_negative(
+        "wind.meander.correlation_time",
+        s.wind.meander.correlation_time,
+    )?;
     match &s.plume {
         PlumeSpec::Filament { max_filaments } => {
             if *max_filaments == 0 {
@@ -82,7 +98,10 @@ pub(crate) fn validate(s: &Scenario, file: &str) -> Result<(), WorldError> {
         PlumeSpec::Gaussian { min_sigma, .. } => {
             c.positive("plume.min_sigma", *min_sigma)?;
             if s.wind.speed <= 0.0 {
-                return Err(c.fail("wind.speed", "the gaussian plume mode needs a mean wind speed > 0"));
+                return Err(c.fail(
+                    "wind.speed",
+                    "the gaussian plume mode needs a mean wind speed > 0",
+                ));
             }
         }
     }
@@ -93,14 +112,20 @@ pub(crate) fn validate(s: &Scenario, file: &str) -> Result<(), WorldError> {
         let key = |k: &str| format!("sources[{i}].{k}");
         c.finite(&key("position"), &src.position)?;
         if !arena.is_free([src.position[0], src.position[1]]) || src.position[2] < 0.0 {
-            return Err(c.fail(key("position"), format!("{:?} is not in free space above ground", src.position)));
+            return Err(c.fail(
+                key("position"),
+                format!("{:?} is not in free space above ground", src.position),
+            ));
         }
         c.positive(&key("release_rate"), src.release_rate)?;
         let f = &src.filaments;
         c.positive(&key("filaments.per_second"), f.release_rate)?;
         c.positive(&key("filaments.initial_radius"), f.initial_radius)?;
         c.non_negative(&key("filaments.growth_rate"), f.growth_rate)?;
-        c.non_negative(&key("filaments.relative_diffusivity"), f.relative_diffusivity)?;
+        c.non_negative(
+            &key("filaments.relative_diffusivity"),
+            f.relative_diffusivity,
+        )?;
         c.positive(&key("filaments.max_age"), f.max_age)?;
     }
     validate_sensors(s, &c)?;
@@ -119,7 +144,10 @@ fn validate_sensors(s: &Scenario, c: &Checker<'_>) -> Result<(), WorldError> {
     c.positive("sensors.mox.supply_voltage", m.supply_voltage)?;
     c.non_negative("sensors.mox.noise_std", m.noise_std)?;
     if m.adc_bits == 1 || m.adc_bits > 32 {
-        return Err(c.fail("sensors.mox.adc_bits", format!("must be 0 (off) or 2..=32, got {}", m.adc_bits)));
+        return Err(c.fail(
+            "sensors.mox.adc_bits",
+            format!("must be 0 (off) or 2..=32, got {}", m.adc_bits),
+        ));
     }
     if s.sensors.channels.is_empty() {
         return Err(c.fail("sensors.channels", "at least one channel is needed"));
@@ -127,7 +155,10 @@ fn validate_sensors(s: &Scenario, c: &Checker<'_>) -> Result<(), WorldError> {
     let mut names = HashSet::new();
     for (i, ch) in s.sensors.channels.iter().enumerate() {
         if ch.name.is_empty() || !names.insert(ch.name.as_str()) {
-            return Err(c.fail(format!("sensors.channels[{i}].name"), format!("`{}` is empty or repeated", ch.name)));
+            return Err(c.fail(
+                format!("sensors.channels[{i}].name"),
+                format!("`{}` is empty or repeated", ch.name),
+            ));
         }
         c.finite(&format!("sensors.channels[{i}].position"), &ch.position)?;
         if let Some(r0) = ch.r0 {
@@ -171,7 +202,13 @@ fn validate_robot(s: &Scenario, c: &Checker<'_>) -> Result<(), WorldError> {
         let key = format!("robot.start_poses[{i}]");
         c.finite(&key, p)?;
         if arena.disc_collides([p[0], p[1]], r.radius) {
-            return Err(c.fail(key, format!("robot footprint at ({}, {}) overlaps a wall or obstacle", p[0], p[1])));
+            return Err(c.fail(
+                key,
+                format!(
+                    "robot footprint at ({}, {}) overlaps a wall or obstacle",
+                    p[0], p[1]
+                ),
+            ));
         }
     }
     Ok(())

@@ -51,8 +51,16 @@ impl WindField {
         let dir_noise = ColouredNoise::new(params.direction_std, params.correlation_time, &mut rng);
         let speed_noise = ColouredNoise::new(params.speed_std, params.correlation_time, &mut rng);
         let mut field = Self {
-            prev: Knot { t: 0.0, direction: params.direction, speed: params.speed },
-            next: Knot { t: 0.0, direction: params.direction, speed: params.speed },
+            prev: Knot {
+                t: 0.0,
+                direction: params.direction,
+                speed: params.speed,
+            },
+            next: Knot {
+                t: 0.0,
+                direction: params.direction,
+                speed: params.speed,
+            },
             params,
             rng,
             dir_noise,
@@ -100,7 +108,11 @@ impl WindField {
     /// is clamped to the window generated so far (call [`WindField::advance_to`] first).
     pub fn velocity(&self, _p: [f64; 3], t: f64) -> [f64; 2] {
         let span = self.next.t - self.prev.t;
-        let w = if span > 0.0 { ((t - self.prev.t) / span).clamp(0.0, 1.0) } else { 1.0 };
+        let w = if span > 0.0 {
+            ((t - self.prev.t) / span).clamp(0.0, 1.0)
+        } else {
+            1.0
+        };
         let dir = self.prev.direction + w * (self.next.direction - self.prev.direction);
         let speed = self.prev.speed + w * (self.next.speed - self.prev.speed);
         let (s, c) = dir.sin_cos();

@@ -57,7 +57,11 @@ pub struct GridSpec {
 impl GridSpec {
     /// World point of cell (i, j) (i along x, j along y).
     pub fn point(&self, i: usize, j: usize) -> [f64; 3] {
-        [self.origin[0] + i as f64 * self.resolution, self.origin[1] + j as f64 * self.resolution, self.z]
+        [
+            self.origin[0] + i as f64 * self.resolution,
+            self.origin[1] + j as f64 * self.resolution,
+            self.z,
+        ]
     }
 }
 
@@ -126,23 +130,40 @@ impl World {
     /// `start_poses[start]`. Every random process draws from its own stream of `seed`.
     pub fn new(scenario: &Scenario, seed: u64, start: usize) -> Result<Self, WorldError> {
         let count = scenario.robot.start_poses.len();
-        let p = *scenario.robot.start_poses.get(start).ok_or(WorldError::StartPose { index: start, count })?;
+        let p = *scenario
+            .robot
+            .start_poses
+            .get(start)
+            .ok_or(WorldError::StartPose {
+                index: start,
+                count,
+            })?;
         let arena = scenario.arena();
         let wind = WindField::new(scenario.wind_params(), stream(seed, 1));
         let plume = match &scenario.plume {
-            PlumeSpec::Filament { max_filaments } => PlumeModel::Filament(Box::new(FilamentPlume::new(
-                scenario.filament_sources(),
-                arena.bounds,
-                *max_filaments,
-                stream(seed, 2),
-            ))),
-            PlumeSpec::Gaussian { stability_class, terrain, min_sigma } => PlumeModel::Gaussian(GaussianPlume {
+            PlumeSpec::Filament { max_filaments } => {
+                PlumeModel::Filament(Box::new(FilamentPlume::new(
+                    scenario.filament_sources(),
+                    arena.bounds,
+                    *max_filaments,
+                    stream(seed, 2),
+                )))
+            }
+            PlumeSpec::Gaussian {
+                stability_class,
+                terrain,
+                min_sigma,
+            } => PlumeModel::Gaussian(GaussianPlume {
                 class: *stability_class,
                 terrain: *terrain,
                 wind_speed: scenario.wind.speed,
                 wind_direction: scenario.wind.direction,
                 min_sigma: *min_sigma,
-                sources: scenario.sources.iter().map(|s| (s.position, s.release_rate)).collect(),
+                sources: scenario
+                    .sources
+                    .iter()
+                    .map(|s| (s.position, s.release_rate))
+                    .collect(),
             }),
         };
         let robot = Robot::new(
@@ -165,9 +186,16 @@ impl World {
             wind,
             plume,
             robot,
-            mox: (0..n).map(|i| MoxSensor::new(scenario.mox_params(i))).collect(),
+            mox: (0..n)
+                .map(|i| MoxSensor::new(scenario.mox_params(i)))
+                .collect(),
             mox_rngs: (0..n as u64).map(|i| stream(seed, 16 + i)).collect(),
-            channels: scenario.sensors.channels.iter().map(|c| c.name.clone()).collect(),
+            channels: scenario
+                .sensors
+                .channels
+                .iter()
+                .map(|c| c.name.clone())
+                .collect(),
             chem_clock: SampleClock::new(scenario.sensors.sample_rate),
             chem_out: Vec::new(),
             anemometer_clock: SampleClock::new(anemometer.sample_rate),
@@ -224,7 +252,9 @@ impl World {
 
     fn next_event(&self, end: u64) -> u64 {
         let mut next = end.min(self.t_ns + self.physics_dt_ns);
-        next = next.min(self.chem_clock.next_ns()).min(self.anemometer_clock.next_ns());
+        next = next
+            .min(self.chem_clock.next_ns())
+            .min(self.anemometer_clock.next_ns());
         if let Some(l) = &self.laser {
             next = next.min(l.clock.next_ns());
         }
@@ -254,18 +284,38 @@ impl World {
     fn sample(&mut self, pose: Pose2) {
         let now = self.t_ns;
         if let Some(stamp_ns) = self.chem_clock.take_due(now) {
-            let resistances = self.mox.iter().zip(self.mox_rngs.iter_mut()).map(|(s, rng)| s.read(rng)).collect();
-            self.chem_out.push(ChemReading { stamp_ns, resistances });
+            let resistances = self
+                .mox
+                .iter()
+                .zip(self.mox_rngs.iter_mut())
+                .map(|(s, rng)| s.read(rng))
+                .collect();
+            self.chem_out.push(ChemReading {
+                stamp_ns,
+                resistances,
+            });
         }
         if let Some(stamp_ns) = self.anemometer_clock.take_due(now) {
             let at = pose.body_to_world(self.anemometer.position);
             let u = self.wind.velocity(at, self.time());
-            let velocity = anemometer::measure(&self.anemometer, u, &pose, &self.robot.twist(), &mut self.anemometer_rng);
+            let velocity = anemometer::measure(
+                &self.anemometer,
+                u,
+                &pose,
+                &self.robot.twist(),
+                &mut self.anemometer_rng,
+            );
             self.wind_out.push(WindReading { stamp_ns, velocity });
         }
         if let Some(l) = &mut self.laser {
             if let Some(stamp) = l.clock.take_due(now) {
-                self.scans_out.push(laser::scan(&l.params, &self.arena, &pose, stamp, &mut l.rng));
+                self.scans_out.push(laser::scan(
+                    &l.params,
+                    &self.arena,
+                    &pose,
+                    stamp,
+                    &mut l.rng,
+                ));
             }
         }
         if let Some(m) = &mut self.mean_map {
@@ -308,13 +358,20 @@ impl World {
     /// Concentration [g/m^3] at each chemical channel's position now.
     pub fn sensor_concentrations(&self) -> Vec<f64> {
         let pose = self.robot.pose();
-        self.scenario.sensors.channels.iter().map(|c| self.plume.concentration(pose.body_to_world(c.position))).collect()
+        self.scenario
+            .sensors
+            .channels
+            .iter()
+            .map(|c| self.plume.concentration(pose.body_to_world(c.position)))
+            .collect()
     }
 
     /// Noise-free anemometer value now [m/s], base_link.
     pub fn anemometer_now(&self) -> [f64; 3] {
         let pose = self.robot.pose();
-        let u = self.wind.velocity(pose.body_to_world(self.anemometer.position), self.time());
+        let u = self
+            .wind
+            .velocity(pose.body_to_world(self.anemometer.position), self.time());
         anemometer::relative_air_velocity(&self.anemometer, u, &pose, &self.robot.twist())
     }
 
@@ -326,9 +383,18 @@ impl World {
     /// One noise-free laser scan from the current pose (`None` without a laser).
     pub fn laser_scan_now(&self) -> Option<LaserScan> {
         let l = self.laser.as_ref()?;
-        let params = LaserParams { noise_std: 0.0, ..l.params.clone() };
+        let params = LaserParams {
+            noise_std: 0.0,
+            ..l.params.clone()
+        };
         let mut rng = stream(0, 0);
-        Some(laser::scan(&params, &self.arena, &self.robot.pose(), self.t_ns, &mut rng))
+        Some(laser::scan(
+            &params,
+            &self.arena,
+            &self.robot.pose(),
+            self.t_ns,
+            &mut rng,
+        ))
     }
 
     /// Robot pose (world = odom frame).
@@ -359,7 +425,11 @@ impl World {
     /// Planar distance from the robot centre to the nearest source [m].
     pub fn nearest_source_distance(&self) -> f64 {
         let p = self.robot.pose();
-        self.scenario.sources.iter().map(|s| (s.position[0] - p.x).hypot(s.position[1] - p.y)).fold(f64::INFINITY, f64::min)
+        self.scenario
+            .sources
+            .iter()
+            .map(|s| (s.position[0] - p.x).hypot(s.position[1] - p.y))
+            .fold(f64::INFINITY, f64::min)
     }
 
     /// True when the robot is within the scenario's success radius of a source.
@@ -403,7 +473,12 @@ impl World {
             clock.take_due(self.t_ns);
         }
         let sum = vec![0.0; grid.nx * grid.ny];
-        self.mean_map = Some(MeanMap { grid, clock, sum, count: 0 });
+        self.mean_map = Some(MeanMap {
+            grid,
+            clock,
+            sum,
+            count: 0,
+        });
     }
 
     /// The mean concentration map so far [g/m^3] (row-major) and the number of snapshots

@@ -31,13 +31,23 @@ const SRC: [f64; 3] = [2.0, 20.0, 0.5];
 fn fit_gaussian(ys: &[f64], cs: &[f64]) -> (f64, f64, f64, f64) {
     let total: f64 = cs.iter().sum();
     let mut m = ys.iter().zip(cs).map(|(y, c)| y * c).sum::<f64>() / total;
-    let mut s = (ys.iter().zip(cs).map(|(y, c)| (y - m).powi(2) * c).sum::<f64>() / total).sqrt();
+    let mut s = (ys
+        .iter()
+        .zip(cs)
+        .map(|(y, c)| (y - m).powi(2) * c)
+        .sum::<f64>()
+        / total)
+        .sqrt();
     let mut a = cs.iter().cloned().fold(0.0, f64::max);
     for _ in 0..30 {
         let (mut jtj, mut jtr) = ([[0.0f64; 3]; 3], [0.0f64; 3]);
         for (&y, &c) in ys.iter().zip(cs) {
             let e = (-(y - m).powi(2) / (2.0 * s * s)).exp();
-            let g = [e, a * e * (y - m) / (s * s), a * e * (y - m).powi(2) / (s * s * s)];
+            let g = [
+                e,
+                a * e * (y - m) / (s * s),
+                a * e * (y - m).powi(2) / (s * s * s),
+            ];
             let r = c - a * e;
             for i in 0..3 {
                 jtr[i] += g[i] * r;
@@ -53,14 +63,19 @@ fn fit_gaussian(ys: &[f64], cs: &[f64]) -> (f64, f64, f64, f64) {
     }
     let mean_c = total / cs.len() as f64;
     let ss_tot: f64 = cs.iter().map(|c| (c - mean_c).powi(2)).sum();
-    let ss_res: f64 = ys.iter().zip(cs).map(|(y, c)| (c - a * (-(y - m).powi(2) / (2.0 * s * s)).exp()).powi(2)).sum();
+    let ss_res: f64 = ys
+        .iter()
+        .zip(cs)
+        .map(|(y, c)| (c - a * (-(y - m).powi(2) / (2.0 * s * s)).exp()).powi(2))
+        .sum();
     (a, m, s, 1.0 - ss_res / ss_tot)
 }
 
 /// Solves a 3x3 system by Cramer's rule.
 fn solve3(a: [[f64; 3]; 3], b: [f64; 3]) -> [f64; 3] {
     let det = |m: [[f64; 3]; 3]| {
-        m[0][0] * (m[1][1] * m[2][2] - m[1][2] * m[2][1]) - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0])
+        m[0][0] * (m[1][1] * m[2][2] - m[1][2] * m[2][1])
+            - m[0][1] * (m[1][0] * m[2][2] - m[1][2] * m[2][0])
             + m[0][2] * (m[1][0] * m[2][1] - m[1][1] * m[2][0])
     };
     let d = det(a);
@@ -91,10 +106,21 @@ fn time_averaged_cross_section_is_gaussian_and_widens() {
         relative_diffusivity: K,
         max_age: 40.0,
     };
-    let source = FilamentSource { position: SRC, rate: 1e-3, params };
+    let source = FilamentSource {
+        position: SRC,
+        rate: 1e-3,
+        params,
+    };
     let bounds = Aabb::new(0.0, 0.0, 40.0, 40.0);
-    let mut plume = FilamentPlume::new(vec![source], bounds, 100_000, ChaCha8Rng::seed_from_u64(21));
-    let wind_params = WindParams { speed: U, direction: 0.0, direction_std: SIGMA_THETA, speed_std: 0.0, correlation_time: T_CORR };
+    let mut plume =
+        FilamentPlume::new(vec![source], bounds, 100_000, ChaCha8Rng::seed_from_u64(21));
+    let wind_params = WindParams {
+        speed: U,
+        direction: 0.0,
+        direction_std: SIGMA_THETA,
+        speed_std: 0.0,
+        correlation_time: T_CORR,
+    };
     let mut wind = WindField::new(wind_params, ChaCha8Rng::seed_from_u64(22));
 
     let distances = [3.0, 6.0, 12.0];
@@ -126,14 +152,24 @@ fn time_averaged_cross_section_is_gaussian_and_widens() {
         );
         assert!(r2 > 0.97, "x = {x}: Gaussian fit R^2 = {r2}");
         assert!(m.abs() < 0.5 * s, "x = {x}: profile centre {m} off axis");
-        assert!((s / expected - 1.0).abs() < 0.3, "x = {x}: sigma {s} vs Taylor estimate {expected}");
+        assert!(
+            (s / expected - 1.0).abs() < 0.3,
+            "x = {x}: sigma {s} vs Taylor estimate {expected}"
+        );
         let t = x / U;
         let sz = (2.0 * K * t + R0 * R0 + GAMMA * t).sqrt();
         let h = SRC[2];
-        let peak = 1e-3 / (2.0 * std::f64::consts::PI * U * s * sz) * (1.0 + (-2.0 * h * h / (sz * sz)).exp());
+        let peak = 1e-3 / (2.0 * std::f64::consts::PI * U * s * sz)
+            * (1.0 + (-2.0 * h * h / (sz * sz)).exp());
         println!("           Gaussian-plume peak for that sigma_y {peak:.3e} g/m^3");
-        assert!((a / peak - 1.0).abs() < 0.15, "x = {x}: peak {a} vs plume formula {peak}");
+        assert!(
+            (a / peak - 1.0).abs() < 0.15,
+            "x = {x}: peak {a} vs plume formula {peak}"
+        );
         sigmas.push(s);
     }
-    assert!(sigmas.windows(2).all(|w| w[1] > w[0] * 1.2), "sigma must grow with distance: {sigmas:?}");
+    assert!(
+        sigmas.windows(2).all(|w| w[1] > w[0] * 1.2),
+        "sigma must grow with distance: {sigmas:?}"
+    );
 }

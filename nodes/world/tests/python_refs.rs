@@ -47,7 +47,10 @@ struct StepCase {
 }
 
 fn refs() -> Refs {
-    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/fixtures/world_refs.json");
+    let path = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/fixtures/world_refs.json"
+    );
     let text = std::fs::read_to_string(path).unwrap_or_else(|e| panic!("{path}: {e}"));
     serde_json::from_str(&text).unwrap_or_else(|e| panic!("{path}: {e}"))
 }
@@ -59,8 +62,22 @@ fn briggs_sigmas_match_numpy_table() {
     assert_eq!(r.briggs.len(), 12 * 6);
     for b in &r.briggs {
         let (sy, sz) = briggs_sigmas(b.class, b.terrain, b.x);
-        assert!((sy / b.sigma_y - 1.0).abs() < 1e-12, "{:?} {:?} x={}: {sy} vs {}", b.terrain, b.class, b.x, b.sigma_y);
-        assert!((sz / b.sigma_z - 1.0).abs() < 1e-12, "{:?} {:?} x={}: {sz} vs {}", b.terrain, b.class, b.x, b.sigma_z);
+        assert!(
+            (sy / b.sigma_y - 1.0).abs() < 1e-12,
+            "{:?} {:?} x={}: {sy} vs {}",
+            b.terrain,
+            b.class,
+            b.x,
+            b.sigma_y
+        );
+        assert!(
+            (sz / b.sigma_z - 1.0).abs() < 1e-12,
+            "{:?} {:?} x={}: {sz} vs {}",
+            b.terrain,
+            b.class,
+            b.x,
+            b.sigma_z
+        );
     }
 }
 
@@ -76,22 +93,43 @@ fn world_frame_plume_matches_numpy_and_flux_is_q() {
             sources: vec![(c.source, c.q)],
         };
         let got = plume.concentration(c.receptor);
-        assert!((got / c.concentration - 1.0).abs() < 1e-10, "{:?}: {got} vs {}", c.receptor, c.concentration);
+        assert!(
+            (got / c.concentration - 1.0).abs() < 1e-10,
+            "{:?}: {got} vs {}",
+            c.receptor,
+            c.concentration
+        );
         // scipy dblquad of u C over the crosswind plane gives back the release rate.
-        assert!((c.flux / c.q - 1.0).abs() < 1e-6, "flux {} vs q {}", c.flux, c.q);
+        assert!(
+            (c.flux / c.q - 1.0).abs() < 1e-6,
+            "flux {} vs q {}",
+            c.flux,
+            c.q
+        );
     }
 }
 
 /// Times at which the MOX response crosses 10 / 63.2 / 90 % of a step, rising (from clean
 /// air) or decaying (from equilibrium at a high concentration back to clean air).
 fn mox_crossings(rising: bool) -> [f64; 3] {
-    let p = MoxParams { noise_std: 0.0, adc_bits: 0, ..MoxParams::default() };
+    let p = MoxParams {
+        noise_std: 0.0,
+        adc_bits: 0,
+        ..MoxParams::default()
+    };
     let c_high = 1e-2;
     let mut s = MoxSensor::new(p.clone());
     if !rising {
         s.update(c_high, 1e4);
     }
-    let (start, end) = (s.response(), if rising { p.target_response(c_high) } else { 1.0 });
+    let (start, end) = (
+        s.response(),
+        if rising {
+            p.target_response(c_high)
+        } else {
+            1.0
+        },
+    );
     let levels = [0.1, 1.0 - (-1.0f64).exp(), 0.9];
     let mut out = [f64::NAN; 3];
     let (dt, mut prev) = (1e-3, 0.0);
@@ -111,12 +149,21 @@ fn mox_crossings(rising: bool) -> [f64; 3] {
 #[test]
 fn mox_step_response_matches_scipy_lsim() {
     let r = refs();
-    for (rising, case) in [(true, &r.first_order_step[0]), (false, &r.first_order_step[1])] {
+    for (rising, case) in [
+        (true, &r.first_order_step[0]),
+        (false, &r.first_order_step[1]),
+    ] {
         let got = mox_crossings(rising);
-        println!("tau {}: t10 {:.4} / {:.4}, t63 {:.4} / {:.4}, t90 {:.4} / {:.4} (sillage / scipy)",
-            case.tau, got[0], case.t10, got[1], case.t63, got[2], case.t90);
+        println!(
+            "tau {}: t10 {:.4} / {:.4}, t63 {:.4} / {:.4}, t90 {:.4} / {:.4} (sillage / scipy)",
+            case.tau, got[0], case.t10, got[1], case.t63, got[2], case.t90
+        );
         for (g, want) in got.iter().zip([case.t10, case.t63, case.t90]) {
-            assert!((g - want).abs() < 1e-4, "tau {}: {g} vs scipy {want}", case.tau);
+            assert!(
+                (g - want).abs() < 1e-4,
+                "tau {}: {g} vs scipy {want}",
+                case.tau
+            );
         }
     }
 }

@@ -30,7 +30,15 @@ fn shipped_scenarios_load_and_build() {
         names.push(s.name);
     }
     names.sort();
-    assert_eq!(names, ["meandering-yard", "open-field-gaussian", "steady-corridor", "warehouse-hall"]);
+    assert_eq!(
+        names,
+        [
+            "meandering-yard",
+            "open-field-gaussian",
+            "steady-corridor",
+            "warehouse-hall"
+        ]
+    );
 }
 
 #[test]
@@ -41,7 +49,10 @@ fn demo_has_the_advertised_geometry() {
     for p in &s.robot.start_poses {
         let (dx, dy) = (p[0] - src[0], p[1] - src[1]);
         let downwind = dx * s.wind.direction.cos() + dy * s.wind.direction.sin();
-        assert!((6.0..=10.5).contains(&downwind), "start {p:?}: {downwind} m downwind");
+        assert!(
+            (6.0..=10.5).contains(&downwind),
+            "start {p:?}: {downwind} m downwind"
+        );
     }
 }
 
@@ -81,18 +92,34 @@ fn invalid_values_name_the_key() {
     let cases = [
         ("speed: 0.5", "speed: -0.5", "wind.speed"),
         ("tau_rise: 1.8", "tau_rise: 0.0", "sensors.mox.tau_rise"),
-        ("- [11.0, 6.0, 3.1416]", "- [6.0, 1.0, 3.1416]", "robot.start_poses[0]"),
-        ("position: [3.0, 6.0, 0.3]", "position: [7.0, 1.0, 0.3]", "sources[0].position"),
+        (
+            "- [11.0, 6.0, 3.1416]",
+            "- [6.0, 1.0, 3.1416]",
+            "robot.start_poses[0]",
+        ),
+        (
+            "position: [3.0, 6.0, 0.3]",
+            "position: [7.0, 1.0, 0.3]",
+            "sources[0].position",
+        ),
         ("{name: right,", "{name: left,", "sensors.channels[1].name"),
         ("max: [20.0, 12.0]", "max: [-1.0, 12.0]", "arena"),
-        ("per_second: 10.0", "per_second: 0.0", "sources[0].filaments.per_second"),
+        (
+            "per_second: 10.0",
+            "per_second: 0.0",
+            "sources[0].filaments.per_second",
+        ),
         ("range_max: 10.0", "range_max: 0.05", "laser.range_max"),
     ];
     for (from, to, key) in cases {
         let text = demo_text();
         assert!(text.contains(from), "demo.yaml lacks `{from}`");
         match error_of(&text.replacen(from, to, 1)) {
-            WorldError::Invalid { file, key: k, reason } => {
+            WorldError::Invalid {
+                file,
+                key: k,
+                reason,
+            } => {
                 assert_eq!(file, "bad.yaml");
                 assert_eq!(k, key, "{reason}");
             }
@@ -103,7 +130,8 @@ fn invalid_values_name_the_key() {
 
 #[test]
 fn gaussian_mode_needs_wind() {
-    let text = std::fs::read_to_string(scenario_dir().join("field_gaussian.yaml")).unwrap_or_default();
+    let text =
+        std::fs::read_to_string(scenario_dir().join("field_gaussian.yaml")).unwrap_or_default();
     let e = error_of(&text.replace("speed: 4.0", "speed: 0.0"));
     assert!(e.to_string().contains("wind.speed"), "{e}");
 }
@@ -121,5 +149,8 @@ fn missing_file_names_the_path() {
 #[test]
 fn start_pose_index_is_checked() {
     let s = Scenario::from_yaml_str(&demo_text(), "demo.yaml").unwrap_or_else(|e| panic!("{e}"));
-    assert!(matches!(World::new(&s, 0, 4), Err(WorldError::StartPose { index: 4, count: 4 })));
+    assert!(matches!(
+        World::new(&s, 0, 4),
+        Err(WorldError::StartPose { index: 4, count: 4 })
+    ));
 }

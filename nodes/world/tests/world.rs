@@ -52,7 +52,10 @@ fn sample_clocks_are_exact_whatever_the_step() {
     let wind: Vec<u64> = w.drain_wind().map(|r| r.stamp_ns).collect();
     let scans: Vec<u64> = w.drain_scans().map(|r| r.stamp_ns).collect();
     assert_eq!(chem.len() as u64, t_ns / 50_000_000, "20 Hz");
-    assert!(chem.iter().enumerate().all(|(k, &t)| t == (k as u64 + 1) * 50_000_000));
+    assert!(chem
+        .iter()
+        .enumerate()
+        .all(|(k, &t)| t == (k as u64 + 1) * 50_000_000));
     assert_eq!(wind.len() as u64, t_ns / 100_000_000, "10 Hz");
     assert_eq!(scans.len() as u64, t_ns / 100_000_000, "10 Hz");
 }
@@ -75,9 +78,14 @@ fn sensors_respond_downwind_not_upwind() {
         rs.iter().sum::<f64>() / rs.len() as f64
     };
     let (rd, ru) = (mean(&mut down), mean(&mut up));
-    println!("mean left resistance over 60-90 s: downwind {rd:.0} ohm, upwind {ru:.0} ohm (R0 {r0})");
+    println!(
+        "mean left resistance over 60-90 s: downwind {rd:.0} ohm, upwind {ru:.0} ohm (R0 {r0})"
+    );
     assert!(rd < 0.6 * r0, "downwind sensor should see gas: {rd}");
-    assert!((ru - r0).abs() < 0.02 * r0, "upwind sensor stays near R0: {ru}");
+    assert!(
+        (ru - r0).abs() < 0.02 * r0,
+        "upwind sensor stays near R0: {ru}"
+    );
 }
 
 #[test]
@@ -85,7 +93,12 @@ fn anemometer_reads_wind_in_base_link() {
     let s = demo();
     let mut w = world(&s, 2, 0); // facing -x (upwind), wind to +x at 0.5 m/s
     w.step(30.0);
-    let v: Vec<[f64; 3]> = w.drain_wind().collect::<Vec<_>>().into_iter().map(|r| r.velocity).collect();
+    let v: Vec<[f64; 3]> = w
+        .drain_wind()
+        .collect::<Vec<_>>()
+        .into_iter()
+        .map(|r| r.velocity)
+        .collect();
     let n = v.len() as f64;
     let mx = v.iter().map(|a| a[0]).sum::<f64>() / n;
     // Air goes to +x (world) = -x (body) for a robot facing -x: a head wind on the sensor.
@@ -106,19 +119,33 @@ fn driving_to_the_source_succeeds_and_walls_count() {
     while !w.source_reached() && w.time() < 60.0 {
         w.step(0.05);
     }
-    assert!(w.source_reached(), "distance left {}", w.nearest_source_distance());
+    assert!(
+        w.source_reached(),
+        "distance left {}",
+        w.nearest_source_distance()
+    );
     // 7.5 m at 0.4 m/s after a 0.5 s ramp: about 19 s.
     assert!((w.time() - 19.0).abs() < 0.5, "t = {}", w.time());
     assert_eq!(w.collisions(), 0);
     // Keep going west: the wall at x = 0 stops the robot.
     w.step(20.0);
     assert_eq!(w.collisions(), 1);
-    assert!(w.robot_pose().x < 0.21 && w.robot_pose().x >= 0.2, "x = {}", w.robot_pose().x);
+    assert!(
+        w.robot_pose().x < 0.21 && w.robot_pose().x >= 0.2,
+        "x = {}",
+        w.robot_pose().x
+    );
     assert_eq!(w.robot_twist(), Twist2::default());
-    let scan = w.laser_scan_now().unwrap_or_else(|| panic!("demo has a laser"));
+    let scan = w
+        .laser_scan_now()
+        .unwrap_or_else(|| panic!("demo has a laser"));
     let mid = scan.ranges.len() / 2;
     // Scanner 0.1 m ahead of a centre 0.2 m from the wall, facing it: about 0.1 m.
-    assert!((scan.ranges[mid] - 0.1).abs() < 0.01, "front range {}", scan.ranges[mid]);
+    assert!(
+        (scan.ranges[mid] - 0.1).abs() < 0.01,
+        "front range {}",
+        scan.ranges[mid]
+    );
 }
 
 #[test]
@@ -126,16 +153,34 @@ fn mean_map_is_highest_near_the_axis() {
     let s = demo();
     let mut w = world(&s, 4, 0);
     w.step(40.0);
-    let grid = GridSpec { origin: [1.0, 0.5], resolution: 1.0, nx: 19, ny: 11, z: 0.3 };
+    let grid = GridSpec {
+        origin: [1.0, 0.5],
+        resolution: 1.0,
+        nx: 19,
+        ny: 11,
+        z: 0.3,
+    };
     w.start_mean_map(grid.clone(), 0.5);
     w.step(60.0);
-    let Some((g, mean, n)) = w.mean_map() else { panic!("map was started") };
+    let Some((g, mean, n)) = w.mean_map() else {
+        panic!("map was started")
+    };
     assert_eq!(n, 120);
     assert_eq!(mean.len(), g.nx * g.ny);
     // Row j = 5 is y = 5.5 ... the axis y = 6 lies between rows 5 and 6. Upwind of the
     // source (x = 1, 2: i = 0, 1) is clean; at x = 9 (i = 8) the axis rows beat the edges.
     let at = |i: usize, j: usize| mean[j * g.nx + i];
-    assert!(at(0, 5) < 1e-9 && at(1, 5) < 1e-6, "{} {}", at(0, 5), at(1, 5));
+    assert!(
+        at(0, 5) < 1e-9 && at(1, 5) < 1e-6,
+        "{} {}",
+        at(0, 5),
+        at(1, 5)
+    );
     let axis = at(8, 5).max(at(8, 6));
-    assert!(axis > 10.0 * at(8, 0) && axis > 10.0 * at(8, 10), "{axis} vs {} {}", at(8, 0), at(8, 10));
+    assert!(
+        axis > 10.0 * at(8, 0) && axis > 10.0 * at(8, 10),
+        "{axis} vs {} {}",
+        at(8, 0),
+        at(8, 10)
+    );
 }
