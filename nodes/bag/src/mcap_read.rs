@@ -1,0 +1,439 @@
+//! MCAP storage files (rosbag2 profile `ros2`): a cursor in log-time order.
+//!
+//! With a summary (every finished rosbag2 MCAP file has one), the mcap crate's summary reader
+//! gives the channels, schemas and chunk indexes; chunks are then read one at a time in order
+//! of their first log time, each checked against its CRC, and overlapping chunks are merged, so
+//! memory holds only the chunks that overlap the current time. Without a summary (a recording
+//! that was cut off) or without chunk indexes (unchunked files), the mcap crate's streaming
+//! message reader reads the file front to back; a cut-off end is then a warning, not an error.
+
+use crate::error::{BagError, Location};
+use crate::source::{Head, Source, TopicDecl};
+use mcap::records::{op, ChunkIndex};
+use mcap::sans_io::{MessageReadEvent, MessageReader, SummaryReadEvent, SummaryReader, SummaryReaderOptions};
+use std::collections::HashMap;
+use std::io::{Read, Seek, SeekFrom};
+use std::path::{Path, PathBuf};
+
+/// Largest decompressed chunk accepted [bytes]; a corrupt size field must not allocate more.
+pub const MAX_CHUNK_BYTES: u64 = 1 << 30;
+
+/// One message record inside a decompressed chunk.
+#[derive(Debug, Clone, Copy)]
+struct Entry {
+    log_time: u64,
+    channel: u16,
+    /// Data range in the chunk buffer.
+    start: u32,
+    end: u32,
+    /// Offset of the record in the decompressed chunk.
+    record: u32,
+}
+
+/// A decompressed chunk and its messages in log-time order.
+struct LoadedChunk {
+    offset: u64,
+    buf: Vec<u8>,
+    entries: Vec<Entry>,
+    pos: usize,
+}
+
+impl LoadedChunk {
+    fn head_time(&self) -> Option<u64> {
+        self.entries.get(self.pos).map(|e| e.log_time)
+    }
+}
+
+/// Chunks in order of their first log time, and those loaded now.
+#[derive(Default)]
+struct Indexed {
+    chunks: Vec<ChunkIndex>,
+    next: usize,
+    active: Vec<LoadedChunk>,
+    spare: Vec<Vec<u8>>,
+    raw: Vec<u8>,
+    current: Option<usize>,
+}
+
+enum Mode {
+    Indexed(Indexed),
+    Linear { reader: Box<MessageReader>, current: Option<mcap::Message<'static>>, done: bool },
+}
+
+/// The file and what is known about it.
+struct FileCtx<R> {
+    path: PathBuf,
+    file: R,
+    file_len: u64,
+    channels: HashMap<u16, TopicDecl>,
+    start: u64,
+    end: u64,
+    warnings: Vec<String>,
+    offset_read: u64,
+}
+
+/// A cursor over one MCAP file.
+pub struct McapSource<R: Read + Seek> {
+    ctx: FileCtx<R>,
+    summary: Option<mcap::Summary>,
+    mode: Mode,
+}
+
+fn mcap_err(path: &Path, at: Location, e: impl std::fmt::Display) -> BagError {
+    BagError::Mcap { path: path.to_path_buf(), at, reason: e.to_string() }
+}
+
+fn decl_of(ch: &mcap::Channel<'_>) -> TopicDecl {
+    let (type_name, schema_encoding, schema) = match &ch.schema {
+        Some(s) => (s.name.clone(), s.encoding.clone(), String::from_utf8_lossy(&s.data).into_owned()),
+        None => (String::new(), String::new(), String::new()),
+    };
+    TopicDecl {
+        name: ch.topic.clone(),
+        type_name,
+        encoding: ch.message_encoding.clone(),
+        schema_encoding,
+        schema,
+        qos: ch.metadata.get("offered_qos_profiles").cloned().unwrap_or_default(),
+    }
+}
+
+/// Reads the summary section; `Ok(None)` when the file has none or it cannot be read (the
+/// reason is returned for a warning).
+fn read_summary<R: Read + Seek>(file: &mut R, len: u64) -> Result<Option<mcap::Summary>, String> {
+    let mut reader = SummaryReader::new_with_options(
+        SummaryReaderOptions::default().with_file_size(len).with_record_length_limit(MAX_CHUNK_BYTES as usize),
+    );
+    while let Some(event) = reader.next_event() {
+        match event.map_err(|e| e.to_string())? {
+            SummaryReadEvent::ReadRequest(n) => {
+                let read = file.read(reader.insert(n)).map_err(|e| e.to_string())?;
+                reader.notify_read(read);
+            }
+            SummaryReadEvent::SeekRequest(to) => {
+                let pos = file.seek(to).map_err(|e| e.to_string())?;
+                reader.notify_seeked(pos);
+            }
+        }
+    }
+    Ok(reader.finish())
+}
+
+impl McapSource<std::io::BufReader<std::fs::File>> {
+    /// Opens an MCAP file for messages with log times in `[start, end]` [ns].
+    pub fn open(path: &Path, start: i64, end: i64) -> Result<Self, BagError> {
+        let f = std::fs::File::open(path).map_err(|e| BagError::io(path, e))?;
+        McapSource::new(path, std::io::BufReader::with_capacity(1 << 16, f), start, end)
+    }
+}
+
+impl<R: Read + Seek> McapSource<R> {
+    /// A cursor over MCAP bytes from `file`; `path` labels errors.
+    pub fn new(path: &Path, mut file: R, start: i64, end: i64) -> Result<Self, BagError> {
+        let path = path.to_path_buf();
+        let io = |e| BagError::io(&path, e);
+        let file_len = file.seek(SeekFrom::End(0)).map_err(io)?;
+        file.seek(SeekFrom::Start(0)).map_err(io)?;
+        let mut magic = [0u8; 8];
+        if file_len < 8 || file.read_exact(&mut magic).is_err() || magic != *mcap::MAGIC {
+            return Err(mcap_err(&path, Location::Offset(0), "bad magic (not an MCAP file)"));
+        }
+        let mut warnings = Vec::new();
+        let summary = match read_summary(&mut file, file_len) {
+            Ok(s) => s,
+            Err(reason) => {
+                warnings.push(format!("{}: no usable summary ({reason}); reading the file front to back", path.display()));
+                None
+            }
+        };
+        let mut channels = HashMap::new();
+        let (start, end) = (start.max(0) as u64, end.max(0) as u64);
+        let mode = match &summary {
+            Some(s) if !s.chunk_indexes.is_empty() => {
+                for (id, ch) in &s.channels {
+                    channels.insert(*id, decl_of(ch));
+                }
+                let mut chunks: Vec<ChunkIndex> = s
+                    .chunk_indexes
+                    .iter()
+                    .filter(|c| c.message_end_time >= start && c.message_start_time <= end)
+                    .cloned()
+                    .collect();
+                chunks.sort_by_key(|c| (c.message_start_time, c.chunk_start_offset));
+                Mode::Indexed(Indexed { chunks, ..Default::default() })
+            }
+            _ => {
+                file.seek(SeekFrom::Start(0)).map_err(io)?;
+                Mode::Linear { reader: Box::new(MessageReader::new()), current: None, done: false }
+            }
+        };
+        let ctx = FileCtx { path, file, file_len, channels, start, end, warnings, offset_read: 0 };
+        Ok(McapSource { ctx, summary, mode })
+    }
+
+    /// The summary section, when the file has one.
+    pub fn summary(&self) -> Option<&mcap::Summary> {
+        self.summary.as_ref()
+    }
+
+    /// The topics the file declared so far, by channel id.
+    pub fn channels(&self) -> &HashMap<u16, TopicDecl> {
+        &self.ctx.channels
+    }
+}
+
+impl<R: Read + Seek> FileCtx<R> {
+    /// Reads, checks and indexes the chunk `ci` into a buffer taken from `spare`.
+    fn load_chunk(&mut self, ci: &ChunkIndex, raw: &mut Vec<u8>, spare: &mut Vec<Vec<u8>>) -> Result<LoadedChunk, BagError> {
+        let path = &self.path;
+        let at = Location::Offset(ci.chunk_start_offset);
+        let bad = |reason: String| mcap_err(path, at.clone(), reason);
+        let end = ci.chunk_start_offset.checked_add(ci.chunk_length).filter(|&e| e <= self.file_len);
+        if end.is_none() || ci.chunk_length < 9 || ci.chunk_length > MAX_CHUNK_BYTES {
+            return Err(bad(format!("chunk index points outside the file (length {})", ci.chunk_length)));
+        }
+        raw.resize(ci.chunk_length as usize, 0);
+        self.file.seek(SeekFrom::Start(ci.chunk_start_offset)).map_err(|e| BagError::io(path, e))?;
+        self.file.read_exact(raw).map_err(|e| bad(format!("chunk cut off: {e}")))?;
+        if raw[0] != op::CHUNK {
+            return Err(bad(format!("chunk index points at a record of opcode {:#04x}, not a chunk", raw[0])));
+        }
+        let (header, data) = match mcap::read::parse_record(op::CHUNK, &raw[9..]) {
+            Ok(mcap::records::Record::Chunk { header, data }) => (header, data),
+            Ok(_) => return Err(bad("not a chunk record".into())),
+            Err(e) => return Err(bad(e.to_string())),
+        };
+        if header.uncompressed_size > MAX_CHUNK_BYTES {
+            return Err(bad(format!("uncompressed size {} is larger than the {MAX_CHUNK_BYTES}-byte limit", header.uncompressed_size)));
+        }
+        let size = header.uncompressed_size as usize;
+        let mut buf = spare.pop().unwrap_or_default();
+        buf.clear();
+        match header.compression.as_str() {
+            "" => buf.extend_from_slice(&data),
+            "zstd" => {
+                buf.reserve(size);
+                let n = zstd::bulk::Decompressor::new()
+                    .and_then(|mut d| d.decompress_to_buffer(&data, &mut buf))
+                    .map_err(|e| bad(format!("zstd: {e}")))?;
+                buf.truncate(n);
+            }
+            "lz4" => {
+                let mut dec = lz4::Decoder::new(&data[..]).map_err(|e| bad(format!("lz4: {e}")))?;
+                (&mut dec).take(size as u64 + 1).read_to_end(&mut buf).map_err(|e| bad(format!("lz4: {e}")))?;
+            }
+            other => {
+                return Err(BagError::Compression { path: path.clone(), offset: ci.chunk_start_offset, compression: other.to_string() })
+            }
+        }
+        if buf.len() != size {
+            return Err(bad(format!("chunk decompresses to {} bytes, its header says {size}", buf.len())));
+        }
+        if header.uncompressed_crc != 0 {
+            let computed = crc32fast::hash(&buf);
+            if computed != header.uncompressed_crc {
+                return Err(BagError::ChunkCrc { path: path.clone(), offset: ci.chunk_start_offset, saved: header.uncompressed_crc, computed });
+            }
+        }
+        let entries = self.index_chunk(&buf, ci.chunk_start_offset)?;
+        Ok(LoadedChunk { offset: ci.chunk_start_offset, buf, entries, pos: 0 })
+    }
+
+    /// The message records of a decompressed chunk within the time range, in log-time order
+    /// (file order for equal times); channels and schemas found inside are learnt.
+    fn index_chunk(&mut self, buf: &[u8], chunk: u64) -> Result<Vec<Entry>, BagError> {
+        let mut entries = Vec::new();
+        let mut pos = 0usize;
+        let mut schemas: HashMap<u16, (String, String, String)> = HashMap::new();
+        while pos < buf.len() {
+            let at = Location::InChunk { chunk, record: pos as u64 };
+            let bad = |reason: &str| mcap_err(&self.path, at.clone(), reason);
+            if buf.len() - pos < 9 {
+                return Err(bad("record header cut off at the end of the chunk"));
+            }
+            let opcode = buf[pos];
+            let mut len8 = [0u8; 8];
+            len8.copy_from_slice(&buf[pos + 1..pos + 9]);
+            let len = u64::from_le_bytes(len8);
+            let body_start = pos + 9;
+            if len > (buf.len() - body_start) as u64 {
+                return Err(bad(&format!("record of {len} bytes runs past the end of the chunk")));
+            }
+            let body = &buf[body_start..body_start + len as usize];
+            match opcode {
+                op::MESSAGE => {
+                    if body.len() < 22 {
+                        return Err(bad("message record shorter than its 22-byte header"));
+                    }
+                    let channel = u16::from_le_bytes([body[0], body[1]]);
+                    let mut t = [0u8; 8];
+                    t.copy_from_slice(&body[6..14]);
+                    let log_time = u64::from_le_bytes(t);
+                    if log_time >= self.start && log_time <= self.end {
+                        entries.push(Entry {
+                            log_time,
+                            channel,
+                            start: (body_start + 22) as u32,
+                            end: (body_start + body.len()) as u32,
+                            record: pos as u32,
+                        });
+                    }
+                }
+                op::SCHEMA | op::CHANNEL => match mcap::read::parse_record(opcode, body) {
+                    Ok(mcap::records::Record::Schema { header, data }) => {
+                        schemas.insert(header.id, (header.name, header.encoding, String::from_utf8_lossy(&data).into_owned()));
+                    }
+                    Ok(mcap::records::Record::Channel(c)) => {
+                        if !self.channels.contains_key(&c.id) {
+                            let (type_name, schema_encoding, schema) = schemas.get(&c.schema_id).cloned().unwrap_or_default();
+                            let qos = c.metadata.get("offered_qos_profiles").cloned().unwrap_or_default();
+                            self.channels.insert(
+                                c.id,
+                                TopicDecl { name: c.topic, type_name, encoding: c.message_encoding, schema_encoding, schema, qos },
+                            );
+                        }
+                    }
+                    Ok(_) => {}
+                    Err(e) => return Err(bad(&e.to_string())),
+                },
+                _ => {}
+            }
+            pos = body_start + len as usize;
+        }
+        if !entries.windows(2).all(|w| w[0].log_time <= w[1].log_time) {
+            entries.sort_by_key(|e| e.log_time); // stable: equal times keep file order
+        }
+        Ok(entries)
+    }
+
+    fn advance_indexed(&mut self, ix: &mut Indexed) -> Result<bool, BagError> {
+        if let Some(i) = ix.current.take() {
+            ix.active[i].pos += 1;
+            if ix.active[i].head_time().is_none() {
+                let done = ix.active.swap_remove(i);
+                ix.spare.push(done.buf);
+            }
+        }
+        // Load every chunk that may hold a message before the earliest one loaded.
+        loop {
+            let min = ix.active.iter().filter_map(LoadedChunk::head_time).min();
+            match ix.chunks.get(ix.next) {
+                Some(ci) if min.is_none_or(|m| ci.message_start_time <= m) => {
+                    let ci = ci.clone();
+                    ix.next += 1;
+                    let c = self.load_chunk(&ci, &mut ix.raw, &mut ix.spare)?;
+                    if c.entries.is_empty() {
+                        ix.spare.push(c.buf);
+                    } else {
+                        ix.active.push(c);
+                    }
+                }
+                _ => break,
+            }
+        }
+        // Smallest (log time, chunk offset): equal times keep file order.
+        ix.current = ix
+            .active
+            .iter()
+            .enumerate()
+            .filter_map(|(i, c)| c.head_time().map(|t| (t, c.offset, i)))
+            .min()
+            .map(|(_, _, i)| i);
+        Ok(ix.current.is_some())
+    }
+
+    fn advance_linear(
+        &mut self,
+        reader: &mut MessageReader,
+        current: &mut Option<mcap::Message<'static>>,
+        done: &mut bool,
+    ) -> Result<bool, BagError> {
+        *current = None;
+        if *done {
+            return Ok(false);
+        }
+        loop {
+            let Some(event) = reader.next_event() else {
+                *done = true;
+                return Ok(false);
+            };
+            match event {
+                Ok(MessageReadEvent::ReadRequest(n)) => {
+                    let buf = reader.insert(n);
+                    let k = self.file.read(buf).map_err(|e| BagError::io(&self.path, e))?;
+                    self.offset_read += k as u64;
+                    reader.notify_read(k);
+                }
+                Ok(MessageReadEvent::Message(m)) => {
+                    if m.log_time < self.start || m.log_time > self.end {
+                        continue;
+                    }
+                    self.channels.entry(m.channel.id).or_insert_with(|| decl_of(&m.channel));
+                    *current = Some(m);
+                    return Ok(true);
+                }
+                Err(e) => {
+                    *done = true;
+                    let at = Location::Offset(self.offset_read);
+                    return match e {
+                        mcap::McapError::UnexpectedEof | mcap::McapError::BadMagic | mcap::McapError::BadFooter => {
+                            self.warnings.push(format!(
+                                "{}: file ends early (cut off near {at}: {e}); the messages before that were read",
+                                self.path.display()
+                            ));
+                            Ok(false)
+                        }
+                        other => Err(mcap_err(&self.path, at, other)),
+                    };
+                }
+            }
+        }
+    }
+}
+
+impl<R: Read + Seek> Source for McapSource<R> {
+    fn path(&self) -> &Path {
+        &self.ctx.path
+    }
+
+    fn start_time(&self) -> Option<i64> {
+        let s = self.summary.as_ref()?;
+        let from_stats = s.stats.as_ref().filter(|st| st.message_count > 0).map(|st| st.message_start_time);
+        let from_chunks = s.chunk_indexes.iter().map(|c| c.message_start_time).min();
+        from_stats.or(from_chunks).map(|t| (t.max(self.ctx.start)) as i64)
+    }
+
+    fn topic(&self, topic: i64) -> Option<TopicDecl> {
+        u16::try_from(topic).ok().and_then(|id| self.ctx.channels.get(&id)).cloned()
+    }
+
+    fn advance(&mut self) -> Result<bool, BagError> {
+        match &mut self.mode {
+            Mode::Indexed(ix) => self.ctx.advance_indexed(ix),
+            Mode::Linear { reader, current, done } => self.ctx.advance_linear(reader, current, done),
+        }
+    }
+
+    fn head(&self) -> Option<Head<'_>> {
+        match &self.mode {
+            Mode::Indexed(Indexed { active, current, .. }) => {
+                let c = active.get((*current)?)?;
+                let e = c.entries.get(c.pos)?;
+                Some(Head {
+                    log_time: e.log_time as i64,
+                    topic: i64::from(e.channel),
+                    data: &c.buf[e.start as usize..e.end as usize],
+                    at: Location::InChunk { chunk: c.offset, record: u64::from(e.record) },
+                })
+            }
+            Mode::Linear { current, .. } => {
+                let m = current.as_ref()?;
+                Some(Head { log_time: m.log_time as i64, topic: i64::from(m.channel.id), data: &m.data, at: Location::Offset(self.ctx.offset_read) })
+            }
+        }
+    }
+
+    fn take_warnings(&mut self) -> Vec<String> {
+        std::mem::take(&mut self.ctx.warnings)
+    }
+}

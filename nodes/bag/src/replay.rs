@@ -1,0 +1,121 @@
+//! Replay: drives an in-process [`Executor`] from a bag in virtual bag time.
+//!
+//! Each message on a graph input is injected at its log time after the executor has run up to
+//! that time, so every node sees inputs and timers exactly as the robot's clock would have
+//! delivered them. Every delivered message (inputs and node outputs) goes to the caller's
+//! record callback. Topics the graph publishes itself are not injected (they are recomputed),
+//! nor are topics no node subscribes to; both are counted. A read error or a failing record
+//! callback stops the replay; what was computed until then has been handed to the callback, and
+//! the outcome says why it stopped.
+
+use crate::error::BagError;
+use crate::reader::Messages;
+use sillage_core::executor::{Executor, Record};
+use sillage_core::Nanos;
+use std::collections::{BTreeMap, HashMap, HashSet};
+
+/// Which bag topics feed the graph.
+#[derive(Debug, Clone, Default)]
+pub struct Inputs {
+    /// Graph inputs: topic -> the type the subscribing nodes expect.
+    pub inject: HashMap<String, &'static str>,
+    /// Topics some node publishes (recomputed, so not injected).
+    pub outputs: HashSet<String>,
+}
+
+/// Why a bag topic was not injected.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum NotInjected {
+    /// A node of the graph publishes it.
+    Recomputed,
+    /// No node subscribes to it.
+    Unused,
+    /// The graph expects another type on it.
+    WrongType(&'static str),
+}
+
+/// What a replay did.
+#[derive(Debug, Default)]
+pub struct Outcome {
+    /// Messages injected.
+    pub injected: u64,
+    /// Bag topics not injected: topic -> (type, count, why).
+    pub not_injected: BTreeMap<String, (String, u64, Option<NotInjected>)>,
+    /// First and last injected log time [ns].
+    pub span: Option<(Nanos, Nanos)>,
+    /// Why the replay stopped early, if it did.
+    pub error: Option<BagError>,
+}
+
+/// Replays `messages` into `ex`; `record` gets every delivered message, `progress` the current
+/// log time from time to time.
+pub fn replay(
+    ex: &mut Executor,
+    messages: &mut Messages,
+    inputs: &Inputs,
+    record: &mut dyn FnMut(&Record) -> Result<(), BagError>,
+    progress: &mut dyn FnMut(Nanos),
+) -> Outcome {
+    let mut out = Outcome::default();
+    let sink_error: std::cell::RefCell<Option<BagError>> = std::cell::RefCell::new(None);
+    let mut n = 0u64;
+    let mut sink = |r: &Record| {
+        if sink_error.borrow().is_none() {
+            if let Err(e) = record(r) {
+                *sink_error.borrow_mut() = Some(e);
+            }
+        }
+    };
+    let mut last = None;
+    for item in messages.by_ref() {
+        let m = match item {
+            Ok(m) => m,
+            Err(e) => {
+                out.error = Some(e);
+                break;
+            }
+        };
+        let why = match inputs.inject.get(m.topic.as_ref()) {
+            Some(&t) if t == m.type_name => None,
+            Some(&t) => Some(NotInjected::WrongType(t)),
+            None if inputs.outputs.contains(m.topic.as_ref()) => Some(NotInjected::Recomputed),
+            None => Some(NotInjected::Unused),
+        };
+        if why.is_some() {
+            let e = out.not_injected.entry(m.topic.to_string()).or_insert_with(|| (m.type_name.to_string(), 0, why));
+            e.1 += 1;
+            continue;
+        }
+        let t = m.log_time;
+        if let Err(e) = ex.run_until(t, &mut sink) {
+            out.error = Some(BagError::Executor { log_time: t, reason: e.to_string() });
+            break;
+        }
+        if let Some(e) = sink_error.borrow_mut().take() {
+            out.error = Some(e);
+            break;
+        }
+        if let Err(e) = ex.inject(t, &m.topic, m.msg) {
+            out.error = Some(BagError::Executor { log_time: t, reason: e.to_string() });
+            break;
+        }
+        out.injected += 1;
+        out.span = Some(out.span.map_or((t, t), |(a, _)| (a, t)));
+        last = Some(t);
+        n += 1;
+        if n % 4096 == 0 {
+            progress(t);
+        }
+    }
+    // Deliver what was injected last (and what it causes), whatever stopped the loop.
+    if let Some(t) = last {
+        if let Err(e) = ex.run_until(t, &mut sink) {
+            out.error.get_or_insert(BagError::Executor { log_time: t, reason: e.to_string() });
+        }
+        progress(t);
+    }
+    if let Some(e) = sink_error.into_inner() {
+        out.error.get_or_insert(e);
+    }
+    out
+}
