@@ -1,65 +1,42 @@
-//! Bearing decoder node core (skeleton: ports and parameters only; the algorithm lands with its issue).
+//! Bearing decoder node core: the direction odor comes from, from the timing of odor onsets
+//! across sensors and from the contrast of their signals.
+//!
+//! Inputs (in this order): `odor_events` (OdorEventArray, from the event encoder), `wind`
+//! (Vector3Stamped, air velocity, pointing where the air goes to), `chem` (ChemSample, for the
+//! channel names and the amplitude cue), `odom` (Odometry, for motion compensation). Output:
+//! `odor_bearing` (OdorBearing, base_link, REP 103), at a fixed rate and on new evidence.
+//!
+//! Modules, upstream first:
+//! - [`geometry`]: sensor positions, pairs, layout checks;
+//! - [`channels`]: event channel index -> sensor, by name;
+//! - [`onsets`]: onset trains per sensor over a sliding window;
+//! - [`lag`]: event-train cross-correlation and matched-onset lag with outlier rejection;
+//! - [`plane_wave`]: lag <-> bearing (two sensors) and the N-sensor least-squares fit;
+//! - [`front_back`]: the two-sensor mirror ambiguity, settled with the wind;
+//! - [`air`]: wind and odometry -> air speed, upwind direction, robot velocity;
+//! - [`timing`]: the timing cue with its confidence;
+//! - [`amplitude`]: the amplitude (tropotaxis) cue with its confidence;
+//! - [`fusion`]: the two cues combined by confidence;
+//! - [`warnings`]: typed, counted run-time input warnings; [`diagnostics`]: the status;
+//! - [`params`]: the parameters; [`node`]: the [`NodeCore`](sillage_core::NodeCore).
 
-use serde::{Deserialize, Serialize};
-use sillage_core::msg::*;
-use sillage_core::params::{self, NodeParams, ParamError};
-use sillage_core::{Msg, Nanos, NodeCore, Outbox, Port, Qos};
+pub mod air;
+pub mod amplitude;
+pub mod channels;
+pub mod diagnostics;
+pub mod front_back;
+pub mod fusion;
+pub mod geometry;
+pub mod lag;
+pub mod node;
+pub mod onsets;
+pub mod params;
+pub mod plane_wave;
+pub mod timing;
+pub mod warnings;
+
+pub use node::{BearingDecoder, Estimate};
+pub use params::Params;
 
 /// Default ROS node name.
 pub const NODE_NAME: &str = "bearing_decoder";
-
-/// Parameters of the node.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(deny_unknown_fields, default)]
-pub struct Params {
-    /// Output rate [Hz].
-    pub rate: f64,
-}
-
-impl Default for Params {
-    fn default() -> Self {
-        Params { rate: 10.0 }
-    }
-}
-
-impl NodeParams for Params {
-    fn validate(&self) -> Result<(), ParamError> {
-        params::ensure(self.rate.is_finite() && self.rate > 0.0, "rate", "must be > 0 [Hz]")
-    }
-}
-
-/// The node core.
-#[derive(Debug, Clone)]
-pub struct BearingDecoder {
-    params: Params,
-}
-
-impl BearingDecoder {
-    /// A core with validated parameters.
-    pub fn new(params: Params) -> Result<Self, ParamError> {
-        params.validate()?;
-        Ok(BearingDecoder { params })
-    }
-}
-
-impl NodeCore for BearingDecoder {
-    fn name(&self) -> &str {
-        NODE_NAME
-    }
-    fn inputs(&self) -> Vec<Port> {
-        vec![Port::of::<OdorEventArray>("odor_events", Qos::Reliable), Port::of::<Vector3Stamped>("wind", Qos::SensorData), Port::of::<ChemSample>("chem", Qos::SensorData), Port::of::<Odometry>("odom", Qos::SensorData)]
-    }
-    fn outputs(&self) -> Vec<Port> {
-        vec![Port::of::<OdorBearing>("odor_bearing", Qos::Reliable)]
-    }
-    fn timers(&self) -> Vec<Nanos> {
-        vec![sillage_core::time::nanos(1.0 / self.params.rate)]
-    }
-    fn on_message(&mut self, _now: Nanos, _input: usize, _msg: &Msg, _out: &mut Outbox) {}
-    fn params_yaml(&self) -> serde_yaml::Value {
-        params::to_value(&self.params)
-    }
-    fn set_params_yaml(&mut self, value: &serde_yaml::Value) -> Result<(), ParamError> {
-        params::apply(&mut self.params, value)
-    }
-}

@@ -1,0 +1,405 @@
+//! The node's parameters: one typed struct, units in brackets, validated at start-up with the
+//! dotted key of the first bad value in the error.
+//!
+//! Sensor positions are parallel lists (`sensors.names`, `sensors.x`, `sensors.y`) because ROS
+//! 2 parameters have no lists of maps, and a list in a parameter file replaces the default list
+//! as a whole. Event channel indices are mapped to sensors by name: the names come from the
+//! latest `chem` sample's `channels` when `chem` is connected, otherwise from `channel_names`.
+
+use crate::air::AirSettings;
+use crate::geometry::{GeometryError, SensorArray, Vec2};
+use crate::timing::TimingSettings;
+use serde::{Deserialize, Serialize};
+use sillage_core::params::{ensure, NodeParams, ParamError};
+use sillage_core::time::nanos;
+use sillage_event_encoder::conditioning::ConditioningParams;
+
+/// Parameters of the node.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct Params {
+    /// Fixed publishing rate of `odor_bearing` [Hz] (> 0).
+    pub rate: f64,
+    /// Also publish at once when an odor event array brings a new onset.
+    pub publish_on_evidence: bool,
+    /// Frame of the output and of base-fixed wind (REP 105 `base_link`).
+    pub base_frame: String,
+    /// Channel names by event channel index, used until a `chem` sample gives the list.
+    pub channel_names: Vec<String>,
+    /// Sensor positions.
+    pub sensors: SensorParams,
+    /// Wind and robot motion.
+    pub wind: WindParams,
+    /// Timing cue.
+    pub timing: TimingParams,
+    /// Front/back ambiguity of two-sensor cues.
+    pub front_back: FrontBackParams,
+    /// Amplitude cue.
+    pub amplitude: AmplitudeParams,
+    /// Cue fusion.
+    pub fusion: FusionParams,
+}
+
+/// Sensor positions in base_link (REP 103: x forward, y left).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct SensorParams {
+    /// Sensor names (as in ChemSample.channels).
+    pub names: Vec<String>,
+    /// x of each sensor [m].
+    pub x: Vec<f64>,
+    /// y of each sensor [m].
+    pub y: Vec<f64>,
+}
+
+/// Wind and robot motion.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct WindParams {
+    /// Air speed used when no wind is measured [m/s] (>= 0; 0 = a wind measurement is needed).
+    pub air_speed: f64,
+    /// A wind message is valid this long [s] (> 0).
+    pub timeout: f64,
+    /// True wind speeds below this are still air: no timing bearing [m/s] (> 0).
+    pub min_speed: f64,
+    /// The wind topic is measured on the robot (apparent wind = true wind - robot velocity):
+    /// compensate with odometry.
+    pub apparent: bool,
+    /// Anemometer x in base_link [m].
+    pub anemometer_x: f64,
+    /// Anemometer y in base_link [m].
+    pub anemometer_y: f64,
+    /// An odometry message is valid this long [s] (> 0).
+    pub odom_timeout: f64,
+}
+
+/// Timing cue.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct TimingParams {
+    /// Sliding window of onsets used for the lag [s] (> 0).
+    pub window: f64,
+    /// Cross-correlation bin width [s] (> 0, well below the lags of interest).
+    pub bin: f64,
+    /// Largest lag ever searched [s] (> 0; the search also stops at the plane-wave bound).
+    pub max_lag: f64,
+    /// Extra fraction searched beyond the plane-wave bound spacing / air speed (>= 0).
+    pub lag_margin: f64,
+    /// A rising event this long after the sensor's previous event starts a new onset even
+    /// without a falling event in between [s] (>= 0).
+    pub onset_gap: f64,
+    /// Onsets matched within this of the correlation peak lag [s] (> 0).
+    pub match_tolerance: f64,
+    /// Matched lags beyond this many robust standard deviations are outliers (> 0).
+    pub outlier_mad: f64,
+    /// Fewest inlier matched onsets for a lag (>= 1).
+    pub min_matches: u32,
+    /// Matched onsets at which their confidence factor is 0.5 (> 0).
+    pub confidence_matches: f64,
+    /// Lag spread at which the consistency factor is 0.5 [s] (> 0).
+    pub lag_spread: f64,
+    /// Most onsets kept per sensor (>= 2).
+    pub max_onsets: u32,
+}
+
+/// Front/back ambiguity of two-sensor cues.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct FrontBackParams {
+    /// Upwind must be at least this far from the sensor axis to settle front/back [rad]
+    /// (0..pi/2).
+    pub min_angle: f64,
+    /// Confidence factor when front/back cannot be settled (0..1; 0 = say nothing).
+    pub unresolved_scale: f64,
+}
+
+/// Amplitude cue.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct AmplitudeParams {
+    /// Use the amplitude cue (needs `chem`).
+    pub enabled: bool,
+    /// Smoothing time constant of the responses [s] (> 0).
+    pub tau: f64,
+    /// Smallest mean response for a cue [conditioned units] (>= 0).
+    pub min_response: f64,
+    /// Mean response at which the strength factor is 0.5 [conditioned units] (> 0).
+    pub response_half: f64,
+    /// Normalised contrast read as fully sideways (0..1].
+    pub saturation: f64,
+    /// Contrast spread at which the stability factor is 0.5 (> 0).
+    pub contrast_spread: f64,
+    /// Trust in the amplitude cue relative to timing (0..1).
+    pub weight: f64,
+    /// No chem sample for this long: no amplitude cue [s] (> 0).
+    pub timeout: f64,
+    /// Conditioning of the raw chem values (the event encoder's, see its docs).
+    pub conditioning: ConditioningParams,
+}
+
+/// Cue fusion.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct FusionParams {
+    /// The weaker cue needs at least this fraction of the stronger's confidence to be fused
+    /// (0..1; 1 = never fuse unless equal).
+    pub min_ratio: f64,
+}
+
+impl Default for Params {
+    fn default() -> Self {
+        Params {
+            rate: 10.0,
+            publish_on_evidence: true,
+            base_frame: "base_link".into(),
+            channel_names: vec!["left".into(), "right".into()],
+            sensors: SensorParams::default(),
+            wind: WindParams::default(),
+            timing: TimingParams::default(),
+            front_back: FrontBackParams::default(),
+            amplitude: AmplitudeParams::default(),
+            fusion: FusionParams::default(),
+        }
+    }
+}
+
+impl Default for SensorParams {
+    /// Left and right at +-half of a 0.2 m spacing on the y axis.
+    fn default() -> Self {
+        SensorParams { names: vec!["left".into(), "right".into()], x: vec![0.0, 0.0], y: vec![0.1, -0.1] }
+    }
+}
+
+impl Default for WindParams {
+    fn default() -> Self {
+        WindParams {
+            air_speed: 0.5,
+            timeout: 1.0,
+            min_speed: 0.05,
+            apparent: true,
+            anemometer_x: 0.0,
+            anemometer_y: 0.0,
+            odom_timeout: 0.5,
+        }
+    }
+}
+
+impl Default for TimingParams {
+    fn default() -> Self {
+        TimingParams {
+            window: 10.0,
+            bin: 0.005,
+            max_lag: 1.0,
+            lag_margin: 0.25,
+            onset_gap: 0.5,
+            match_tolerance: 0.05,
+            outlier_mad: 3.0,
+            min_matches: 3,
+            confidence_matches: 5.0,
+            lag_spread: 0.03,
+            max_onsets: 256,
+        }
+    }
+}
+
+impl Default for FrontBackParams {
+    fn default() -> Self {
+        FrontBackParams { min_angle: 15f64.to_radians(), unresolved_scale: 0.5 }
+    }
+}
+
+impl Default for AmplitudeParams {
+    fn default() -> Self {
+        AmplitudeParams {
+            enabled: true,
+            tau: 1.0,
+            min_response: 0.02,
+            response_half: 0.1,
+            saturation: 0.5,
+            contrast_spread: 0.2,
+            weight: 0.5,
+            timeout: 1.0,
+            conditioning: ConditioningParams::default(),
+        }
+    }
+}
+
+impl Default for FusionParams {
+    fn default() -> Self {
+        FusionParams { min_ratio: 0.25 }
+    }
+}
+
+fn positive(v: f64, key: &str, unit: &str) -> Result<(), ParamError> {
+    ensure(v.is_finite() && v > 0.0, key, format!("must be > 0 {unit}"))
+}
+
+fn non_negative(v: f64, key: &str, unit: &str) -> Result<(), ParamError> {
+    ensure(v.is_finite() && v >= 0.0, key, format!("must be >= 0 {unit}"))
+}
+
+fn unit_interval(v: f64, key: &str) -> Result<(), ParamError> {
+    ensure((0.0..=1.0).contains(&v), key, "must be in 0..1")
+}
+
+impl Params {
+    /// The sensor layout (checked).
+    pub fn sensor_array(&self) -> Result<SensorArray, ParamError> {
+        let s = &self.sensors;
+        SensorArray::new(&s.names, &s.x, &s.y).map_err(|e| {
+            let key = match &e {
+                GeometryError::Lengths { xs, names, .. } if xs != names => "sensors.x",
+                GeometryError::Lengths { .. } => "sensors.y",
+                GeometryError::TooFew { .. } | GeometryError::BadName { .. } => "sensors.names",
+                GeometryError::NonFinite { .. } | GeometryError::Coincident { .. } | GeometryError::Collinear { .. } => "sensors.y",
+            };
+            ParamError::OutOfRange { key: key.into(), reason: e.to_string() }
+        })
+    }
+
+    /// Settings of the air state.
+    pub fn air_settings(&self) -> AirSettings {
+        let w = &self.wind;
+        AirSettings {
+            base_frame: self.base_frame.clone(),
+            apparent: w.apparent,
+            anemometer: Vec2::new(w.anemometer_x, w.anemometer_y),
+            wind_timeout: nanos(w.timeout),
+            odom_timeout: nanos(w.odom_timeout),
+            min_speed: w.min_speed,
+            air_speed: w.air_speed,
+        }
+    }
+
+    /// Settings of the timing cue.
+    pub fn timing_settings(&self) -> TimingSettings {
+        let t = &self.timing;
+        TimingSettings {
+            bin: nanos(t.bin).max(1),
+            max_lag: t.max_lag,
+            lag_margin: t.lag_margin,
+            tolerance: nanos(t.match_tolerance),
+            mad_k: t.outlier_mad,
+            min_matches: t.min_matches as usize,
+            confidence_matches: t.confidence_matches,
+            lag_spread: t.lag_spread,
+            min_speed: self.wind.min_speed,
+            min_angle: self.front_back.min_angle,
+            unresolved_scale: self.front_back.unresolved_scale,
+        }
+    }
+}
+
+impl NodeParams for Params {
+    fn validate(&self) -> Result<(), ParamError> {
+        positive(self.rate, "rate", "[Hz]")?;
+        ensure(!self.base_frame.is_empty(), "base_frame", "must not be empty")?;
+        let array = self.sensor_array()?;
+        ensure(!self.channel_names.is_empty(), "channel_names", "must name at least one channel")?;
+        for (i, n) in self.channel_names.iter().enumerate() {
+            ensure(!self.channel_names[..i].contains(n), "channel_names", format!("'{n}' appears twice"))?;
+        }
+        let placed = self.channel_names.iter().filter(|n| array.index_of(n).is_some()).count();
+        ensure(placed >= 2, "channel_names", format!("only {placed} of them are in sensors.names; the cues need two"))?;
+        let w = &self.wind;
+        non_negative(w.air_speed, "wind.air_speed", "[m/s]")?;
+        positive(w.timeout, "wind.timeout", "[s]")?;
+        positive(w.min_speed, "wind.min_speed", "[m/s]")?;
+        ensure(w.anemometer_x.is_finite(), "wind.anemometer_x", "must be finite [m]")?;
+        ensure(w.anemometer_y.is_finite(), "wind.anemometer_y", "must be finite [m]")?;
+        positive(w.odom_timeout, "wind.odom_timeout", "[s]")?;
+        let t = &self.timing;
+        positive(t.window, "timing.window", "[s]")?;
+        positive(t.bin, "timing.bin", "[s]")?;
+        ensure(t.bin >= 1e-6, "timing.bin", "must be >= 1e-6 [s]")?;
+        positive(t.max_lag, "timing.max_lag", "[s]")?;
+        ensure(t.max_lag / t.bin <= 100_000.0, "timing.max_lag", "must be at most 100000 bins (timing.bin)")?;
+        ensure(t.max_lag < t.window, "timing.max_lag", "must be shorter than timing.window")?;
+        non_negative(t.lag_margin, "timing.lag_margin", "")?;
+        non_negative(t.onset_gap, "timing.onset_gap", "[s]")?;
+        positive(t.match_tolerance, "timing.match_tolerance", "[s]")?;
+        positive(t.outlier_mad, "timing.outlier_mad", "")?;
+        ensure(t.min_matches >= 1, "timing.min_matches", "must be >= 1")?;
+        positive(t.confidence_matches, "timing.confidence_matches", "")?;
+        positive(t.lag_spread, "timing.lag_spread", "[s]")?;
+        ensure(t.max_onsets >= 2, "timing.max_onsets", "must be >= 2")?;
+        let f = &self.front_back;
+        ensure(
+            f.min_angle.is_finite() && (0.0..std::f64::consts::FRAC_PI_2).contains(&f.min_angle),
+            "front_back.min_angle",
+            "must be in [0, pi/2) [rad]",
+        )?;
+        unit_interval(f.unresolved_scale, "front_back.unresolved_scale")?;
+        let a = &self.amplitude;
+        positive(a.tau, "amplitude.tau", "[s]")?;
+        non_negative(a.min_response, "amplitude.min_response", "[conditioned units]")?;
+        positive(a.response_half, "amplitude.response_half", "[conditioned units]")?;
+        ensure(a.saturation > 0.0 && a.saturation <= 1.0, "amplitude.saturation", "must be in (0, 1]")?;
+        positive(a.contrast_spread, "amplitude.contrast_spread", "")?;
+        unit_interval(a.weight, "amplitude.weight")?;
+        positive(a.timeout, "amplitude.timeout", "[s]")?;
+        a.conditioning.check("amplitude.conditioning")?;
+        unit_interval(self.fusion.min_ratio, "fusion.min_ratio")
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use sillage_core::params::{from_value, load_str, to_value};
+
+    #[test]
+    fn defaults_are_valid_and_round_trip() {
+        let p = Params::default();
+        p.validate().expect("defaults valid");
+        assert_eq!(from_value::<Params>(&to_value(&p)).expect("round trip"), p);
+    }
+
+    fn key_of(yaml: &str) -> String {
+        let text = format!("bearing_decoder:\n  ros__parameters:\n{yaml}");
+        match load_str::<Params>(&text, "p.yaml", "/bearing_decoder") {
+            Err(sillage_core::params::ParamFileError::Param { error, .. }) => error.key().to_string(),
+            other => panic!("expected a parameter error, got {other:?}"),
+        }
+    }
+
+    #[test]
+    fn bad_values_name_their_key() {
+        assert_eq!(key_of("    rate: 0.0\n"), "rate");
+        assert_eq!(key_of("    sensors:\n      y: [0.1, 0.1]\n"), "sensors.y", );
+        assert_eq!(key_of("    sensors:\n      x: [0.0]\n"), "sensors.x");
+        assert_eq!(
+            key_of("    sensors:\n      names: [a, b, c]\n      x: [0.0, 0.0, 0.0]\n      y: [0.1, 0.0, -0.1]\n"),
+            "sensors.y",
+            "collinear"
+        );
+        assert_eq!(key_of("    channel_names: [left, middle]\n"), "channel_names");
+        assert_eq!(key_of("    wind:\n      min_speed: .nan\n"), "wind.min_speed");
+        assert_eq!(key_of("    timing:\n      bin: -0.01\n"), "timing.bin");
+        assert_eq!(key_of("    timing:\n      max_lag: 20.0\n"), "timing.max_lag");
+        assert_eq!(key_of("    front_back:\n      unresolved_scale: 2.0\n"), "front_back.unresolved_scale");
+        assert_eq!(key_of("    amplitude:\n      conditioning:\n        gain: 0.0\n"), "amplitude.conditioning.gain");
+        assert_eq!(key_of("    timing:\n      no_such: 1\n"), "timing.no_such");
+    }
+
+    #[test]
+    fn the_shipped_parameter_file_holds_the_defaults() {
+        let text = include_str!("../../../config/bearing_decoder.yaml");
+        let p: Params = load_str(text, "config/bearing_decoder.yaml", "/bearing_decoder").expect("loads");
+        assert_eq!(p, Params::default());
+        // Every key of the defaults appears in the file (no silently missing documentation).
+        let doc: serde_yaml::Value = serde_yaml::from_str(text).expect("yaml");
+        let file_keys: Vec<String> = sillage_core::params::flatten(&doc["bearing_decoder"]["ros__parameters"]).into_iter().map(|(k, _)| k).collect();
+        for (k, _) in sillage_core::params::flatten(&to_value(&Params::default())) {
+            assert!(file_keys.contains(&k), "config/bearing_decoder.yaml lacks '{k}'");
+        }
+    }
+
+    #[test]
+    fn a_file_sets_a_triangle_and_integers_pass_for_floats() {
+        let text = "bearing_decoder:\n  ros__parameters:\n    rate: 20\n    channel_names: [l, r, f]\n    sensors:\n      names: [l, r, f]\n      x: [0.0, 0.0, 0.15]\n      y: [0.1, -0.1, 0.0]\n";
+        let p: Params = load_str(text, "p.yaml", "/bearing_decoder").expect("loads");
+        assert_eq!(p.rate, 20.0);
+        assert_eq!(p.sensor_array().expect("valid").layout(), crate::geometry::Layout::Planar);
+    }
+}
