@@ -16,6 +16,7 @@ cd "$root"
 # its output path as its only (optional) argument.
 FIXTURES=(
     "tests/refs/make_cdr_fixtures.py tests/fixtures/cdr/cdr_cases.json"
+    "tests/refs/plume_filters.py tests/fixtures/plume/plume_filters.json"
 )
 
 python="$(bash "$here/venv.sh")"

@@ -101,7 +101,8 @@ impl Channel {
     /// A channel named `name` with a copy of the designed `chain`, on a grid of `period` [ns].
     pub fn new(name: &str, chain: &BoutChain, period: Nanos, p: &Params, bins: usize) -> Channel {
         let dt = period as f64 * 1e-9;
-        let learn = ((p.bouts.learn_time / dt).ceil() as usize).clamp(2, MAX_LEARN_SAMPLES);
+        // The tolerance keeps 3.0 s / 0.05 s at 60 samples, not 61.
+        let learn = ((p.bouts.learn_time / dt - 1e-9).ceil() as usize).clamp(2, MAX_LEARN_SAMPLES);
         let mut c = chain.clone();
         c.reset();
         Channel {
