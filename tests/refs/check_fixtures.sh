@@ -17,6 +17,7 @@ cd "$root"
 FIXTURES=(
     "tests/refs/make_cdr_fixtures.py tests/fixtures/cdr/cdr_cases.json"
     "tests/refs/plume_filters.py tests/fixtures/plume/plume_filters.json"
+    "tests/refs/bag_make_fixtures.py tests/fixtures/bags/expected.jsonl"
 )
 
 python="$(bash "$here/venv.sh")"
