@@ -41,7 +41,7 @@ pub struct GuardFlags {
     pub fence: Option<FenceVerdict>,
     /// The slow zone lowered the forward cap.
     pub obstacle_slow: bool,
-    /// The obstacle stop zeroed the linear part.
+    /// An obstacle is within the stop distance (forward and lateral motion are zero).
     pub obstacle_stop: bool,
     /// Caps or rate limits changed it.
     pub limited: bool,
@@ -54,7 +54,7 @@ pub struct GuardCounts {
     pub nonfinite: u64,
     /// Commands changed by the fence.
     pub fence: u64,
-    /// Commands zeroed by the obstacle stop.
+    /// Commands sent while an obstacle was within the stop distance.
     pub obstacle_stops: u64,
     /// Commands changed by caps or rate limits.
     pub limited: u64,
@@ -157,12 +157,14 @@ impl Guard {
         }
         let (mut out, limited) = self.limiter.limit(now, c, &self.g, self.period);
         flags.limited = limited;
-        if nearest.is_some_and(|d| d <= o.stop_distance) && (out.vx > 0.0 || out.vy != 0.0) {
+        let mut cut = false;
+        if nearest.is_some_and(|d| d <= o.stop_distance) {
+            flags.obstacle_stop = true;
+            cut = out.vx > 0.0 || out.vy != 0.0;
             out.vx = out.vx.min(0.0);
             out.vy = 0.0;
-            flags.obstacle_stop = true;
         }
-        self.finish(now, out, flags, flags.obstacle_stop)
+        self.finish(now, out, flags, cut)
     }
 
     fn finish(&mut self, now: Nanos, c: Cmd, flags: GuardFlags, force: bool) -> Cmd {
