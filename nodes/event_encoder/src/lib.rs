@@ -1,70 +1,36 @@
-//! Event encoder node core (skeleton: ports and parameters only; the algorithm lands with its issue).
+//! Event encoder node core: conditions each chemical sensor channel and turns it into
+//! send-on-delta or level-crossing events.
+//!
+//! - input `chem` (`sillage_msgs/ChemSample`, sensor-data QoS): channels matched by name;
+//! - output `odor_events` (`sillage_msgs/OdorEventArray`, reliable): one array per sample that
+//!   produced events, `header` = the sample's header, events sorted by stamp;
+//!   **`OdorEvent.channel` is the index into that sample's `channels` array**;
+//! - diagnostics "event_encoder: input" and "event_encoder: <channel>".
+//!
+//! Layers: [`conditioning`] (shared with other nodes: larger = more gas) and [`encoding`] are
+//! per-channel state machines; [`channel::Channel`] is the allocation-free hot path
+//! (`step(t_ns, raw)`); [`node`] is the message-level code.
 
 mod decay;
 mod overrides;
-pub mod conditioning;
-pub mod encoding;
 
-use serde::{Deserialize, Serialize};
-use sillage_core::msg::*;
-use sillage_core::params::{self, NodeParams, ParamError};
-use sillage_core::{Msg, Nanos, NodeCore, Outbox, Port, Qos};
+pub mod channel;
+pub mod conditioning;
+pub mod diagnostics;
+pub mod encoding;
+pub mod error;
+pub mod layout;
+pub mod node;
+pub mod params;
+pub mod warnings;
+
+pub use channel::Channel;
+pub use error::InputError;
+pub use node::{EventEncoder, InputCounts};
+pub use params::{ChannelOverrides, Params};
 
 /// Default ROS node name.
 pub const NODE_NAME: &str = "event_encoder";
 
-/// Parameters of the node.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(deny_unknown_fields, default)]
-pub struct Params {
-    /// Output rate [Hz].
-    pub rate: f64,
-}
-
-impl Default for Params {
-    fn default() -> Self {
-        Params { rate: 10.0 }
-    }
-}
-
-impl NodeParams for Params {
-    fn validate(&self) -> Result<(), ParamError> {
-        params::ensure(self.rate.is_finite() && self.rate > 0.0, "rate", "must be > 0 [Hz]")
-    }
-}
-
-/// The node core.
-#[derive(Debug, Clone)]
-pub struct EventEncoder {
-    params: Params,
-}
-
-impl EventEncoder {
-    /// A core with validated parameters.
-    pub fn new(params: Params) -> Result<Self, ParamError> {
-        params.validate()?;
-        Ok(EventEncoder { params })
-    }
-}
-
-impl NodeCore for EventEncoder {
-    fn name(&self) -> &str {
-        NODE_NAME
-    }
-    fn inputs(&self) -> Vec<Port> {
-        vec![Port::of::<ChemSample>("chem", Qos::SensorData)]
-    }
-    fn outputs(&self) -> Vec<Port> {
-        vec![Port::of::<OdorEventArray>("odor_events", Qos::Reliable)]
-    }
-    fn timers(&self) -> Vec<Nanos> {
-        vec![sillage_core::time::nanos(1.0 / self.params.rate)]
-    }
-    fn on_message(&mut self, _now: Nanos, _input: usize, _msg: &Msg, _out: &mut Outbox) {}
-    fn params_yaml(&self) -> serde_yaml::Value {
-        params::to_value(&self.params)
-    }
-    fn set_params_yaml(&mut self, value: &serde_yaml::Value) -> Result<(), ParamError> {
-        params::apply(&mut self.params, value)
-    }
-}
+#[cfg(test)]
+mod tests;
