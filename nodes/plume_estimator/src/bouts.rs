@@ -7,6 +7,10 @@
 //! [signal units / s]. A bout is known one sample after its peak (when the rise stops), so
 //! detection is causal; a run still rising is not yet a bout. Runs below the amplitude
 //! threshold are noise, not bouts (the caller applies the threshold).
+//!
+//! A run that starts below zero (the smoothed derivative recovering from the fall after an
+//! earlier filament) includes that recovery; its amplitude too, as the rule says. The part of
+//! the run where the signal itself rises (derivative > 0) starts at `rise_start`.
 
 use sillage_core::Nanos;
 
@@ -19,6 +23,9 @@ pub struct Bout {
     pub peak: Nanos,
     /// Rise of the smoothed derivative over the run [signal units / s] (> 0).
     pub amplitude: f64,
+    /// Grid time of the last sample of the run with a derivative <= 0 (the onset when the
+    /// run starts above 0): from here to the peak the signal rises [ns].
+    pub rise_start: Nanos,
 }
 
 /// Streaming rising-run detector.
@@ -26,6 +33,7 @@ pub struct Bout {
 pub struct BoutTracker {
     prev: Option<(Nanos, f64)>,
     onset: Option<(Nanos, f64)>,
+    rise_start: Nanos,
 }
 
 impl BoutTracker {
@@ -53,11 +61,15 @@ impl BoutTracker {
         if e > ep {
             if self.onset.is_none() {
                 self.onset = Some((tp, ep));
+                self.rise_start = tp;
+            }
+            if e <= 0.0 {
+                self.rise_start = t;
             }
             None
         } else {
             let (t0, e0) = self.onset.take()?;
-            Some(Bout { onset: t0, peak: tp, amplitude: ep - e0 })
+            Some(Bout { onset: t0, peak: tp, amplitude: ep - e0, rise_start: self.rise_start })
         }
     }
 }
@@ -81,6 +93,10 @@ mod tests {
         let e = [0.0, 1.0, 3.0, 2.0, 2.0, 5.0, 5.0, 4.0, 6.0];
         // Runs: 0..=2 (rise 3), 4..=5 (rise 3), 7..=8 still rising at the end (not a bout).
         assert_eq!(bouts(&e), vec![(0, 2, 3.0), (4, 5, 3.0)]);
+        // A run from below zero: the signal rises from where the derivative last was <= 0.
+        let mut tr = BoutTracker::new();
+        let b: Vec<Bout> = [-2.0, -1.0, 0.0, 1.5, 2.0, 1.0].iter().enumerate().filter_map(|(n, &v)| tr.step(n as Nanos, v)).collect();
+        assert_eq!(b, vec![Bout { onset: 0, peak: 4, amplitude: 4.0, rise_start: 2 }]);
         assert!(bouts(&[1.0, 1.0, 1.0]).is_empty(), "ties are not rises");
     }
 
@@ -91,6 +107,13 @@ mod tests {
         fn bouts_partition_the_rises(e in proptest::collection::vec(-3.0f64..3.0, 2..300)) {
             let b = bouts(&e);
             let mut last_peak = None;
+            let mut tr = BoutTracker::new();
+            for bt in e.iter().enumerate().filter_map(|(n, &v)| tr.step(n as Nanos, v)) {
+                prop_assert!(bt.onset <= bt.rise_start && bt.rise_start <= bt.peak);
+                let rs = bt.rise_start as usize;
+                prop_assert!(e[rs] <= 0.0 || rs == bt.onset as usize);
+                prop_assert!((rs + 1..=bt.peak as usize).all(|n| e[n] > 0.0));
+            }
             for &(on, pk, a) in &b {
                 prop_assert!(on < pk && a > 0.0);
                 prop_assert!((a - (e[pk] - e[on])).abs() < 1e-12);

@@ -76,7 +76,7 @@ impl Pipeline {
                 self.ring.open.bouts += 1;
                 self.ring.open.amplitude_sum += b.amplitude;
                 if self.presence == PresenceMode::Bouts {
-                    self.ring.open.presence += (b.peak - b.onset) as f64 * 1e-9;
+                    self.ring.open.presence += (b.peak - b.rise_start) as f64 * 1e-9;
                 }
                 self.counts.bouts += 1;
                 self.last_bout = Some(b);

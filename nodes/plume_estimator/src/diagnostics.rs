@@ -2,6 +2,7 @@
 //! channel, with its own window features), "plume_estimator: features" (the pooled values as
 //! published) and "plume_estimator: distance".
 
+use crate::conditioning::ChannelStatus;
 use crate::node::PlumeEstimator;
 use crate::params::ThresholdMode;
 use crate::window::Features;
@@ -45,7 +46,10 @@ pub fn report(n: &PlumeEstimator, now: Nanos, out: &mut Vec<DiagnosticStatus>) {
     let p = n.params();
     for (ch, inp) in n.channels().iter().zip(n.inputs()) {
         let c = ch.counts();
-        let (level, message) = if !ch.ready() {
+        let status = inp.conditioner().status();
+        let (level, message) = if matches!(status, ChannelStatus::Dead | ChannelStatus::Saturated) {
+            (WARN, format!("sensor {}: its samples are {}", status.as_str(), if status == ChannelStatus::Dead { "skipped" } else { "used, baseline frozen" }))
+        } else if !ch.ready() {
             (WARN, format!("learning clean-air noise ({:.0} %): no bouts counted yet", 100.0 * ch.learning_progress()))
         } else if ch.features.coverage < p.features.min_coverage {
             (WARN, format!("valid data for {:.0} % of the window (needs {:.0} %)", 100.0 * ch.features.coverage, 100.0 * p.features.min_coverage))
@@ -60,11 +64,18 @@ pub fn report(n: &PlumeEstimator, now: Nanos, out: &mut Vec<DiagnosticStatus>) {
             ("runs_below_threshold", c.rejected.to_string()),
             ("restarts", c.restarts.to_string()),
             ("samples", c.samples.to_string()),
-            ("bad_values", inp.faults.to_string()),
-            ("last_fault", inp.last_fault.unwrap_or("none").to_string()),
-            ("conditioning", inp.status().to_string()),
+            ("skipped_values", inp.skipped().to_string()),
+            ("last_skip", inp.last_fault.map_or("none", |s| s.kind()).to_string()),
+            ("conditioning", inp.conditioner().status().as_str().to_string()),
+            ("transform", inp.conditioner().transform().as_str().to_string()),
+            ("baseline", opt(inp.conditioner().baseline())),
             ("smoothed_derivative", ch.last_derivative().to_string()),
         ]);
+        for (kind, count) in crate::conditioning::FAULT_KINDS.iter().zip(inp.faults) {
+            if count > 0 {
+                v.push((kind, count.to_string()));
+            }
+        }
         if let Some(b) = ch.last_bout() {
             v.extend([
                 ("last_bout_onset_ns", b.onset.to_string()),

@@ -22,6 +22,10 @@ pub struct Params {
     pub features: FeatureParams,
     /// Distance model (fitted by `sillage calibrate`).
     pub distance: DistanceParams,
+    /// Channel conditioning, shared with the event encoder (see
+    /// `sillage_event_encoder::conditioning`): transform to "larger = more gas", calibration,
+    /// baseline removal, rail and stuck detection. Node-wide (no per-channel overrides here).
+    pub conditioning: crate::conditioning::ConditioningParams,
 }
 
 /// Input handling.
@@ -149,8 +153,9 @@ impl Default for BoutParams {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum PresenceMode {
-    /// Present during the rise (onset to peak) of every accepted bout: a MOX sensor's response
-    /// rises only while fresh gas reaches it, its slow recovery says nothing about presence.
+    /// Present while the signal rises during an accepted bout (from where its smoothed
+    /// derivative turns positive to the peak): a MOX sensor's response rises only while fresh
+    /// gas reaches it, its slow recovery says nothing about presence.
     Bouts,
     /// Present while the conditioned (baseline-free) signal exceeds `features.presence_level`.
     Level,
@@ -280,6 +285,8 @@ impl NodeParams for Params {
             "features.presence_level",
             "must be > 0 when features.presence is 'level'",
         )?;
+
+        self.conditioning.check("conditioning")?;
 
         let d = &self.distance;
         ensure(d.intercept.is_finite(), "distance.intercept", "must be finite [ln m]")?;

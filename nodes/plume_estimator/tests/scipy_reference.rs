@@ -177,6 +177,8 @@ fn node_counts_the_numpy_bouts() {
             p.bouts.threshold_mode = ThresholdMode::Noise;
             p.bouts.noise_factor = num(&b["noise_factor"]);
             p.bouts.learn_time = clean as f64 * dt;
+            // RELATIVE values pass through; with baseline removal off the chain sees the input.
+            p.conditioning.baseline_time_constant = 0.0;
             let mut node = PlumeEstimator::new(p).expect("valid params");
             let mut out = Outbox::new();
             let t0: i64 = 1_700_000_000_000_000_000;
