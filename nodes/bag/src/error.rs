@@ -9,6 +9,8 @@ use thiserror::Error;
 pub enum Location {
     /// Byte offset in the file (an MCAP record or chunk start).
     Offset(u64),
+    /// Byte offset of a chunk record in the file.
+    Chunk(u64),
     /// Byte offset of a chunk in the file, and of a record inside the decompressed chunk.
     InChunk { chunk: u64, record: u64 },
     /// Row id in the sqlite3 `messages` table.
@@ -21,6 +23,7 @@ impl std::fmt::Display for Location {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         match self {
             Location::Offset(o) => write!(f, "byte {o}"),
+            Location::Chunk(c) => write!(f, "chunk at byte {c}"),
             Location::InChunk { chunk, record } => write!(f, "chunk at byte {chunk}, record at byte {record} of the chunk"),
             Location::Row(r) => write!(f, "messages row {r}"),
             Location::File => write!(f, "whole file"),

@@ -186,7 +186,7 @@ impl<R: Read + Seek> FileCtx<R> {
     /// Reads, checks and indexes the chunk `ci` into a buffer taken from `spare`.
     fn load_chunk(&mut self, ci: &ChunkIndex, raw: &mut Vec<u8>, spare: &mut Vec<Vec<u8>>) -> Result<LoadedChunk, BagError> {
         let path = &self.path;
-        let at = Location::Offset(ci.chunk_start_offset);
+        let at = Location::Chunk(ci.chunk_start_offset);
         let bad = |reason: String| mcap_err(path, at.clone(), reason);
         let end = ci.chunk_start_offset.checked_add(ci.chunk_length).filter(|&e| e <= self.file_len);
         if end.is_none() || ci.chunk_length < 9 || ci.chunk_length > MAX_CHUNK_BYTES {

@@ -1,10 +1,60 @@
-//! `sillage replay` and `sillage bag` (not built yet: their issue is open).
+//! `sillage replay` (the node graph over recorded bags in virtual bag time) and `sillage bag`
+//! (inspecting bags).
+//!
+//! Replay reads the bags (MCAP or sqlite3, merged by log time), builds the stack from the
+//! parameter file, injects each message on a graph input at its log time, and writes to the
+//! output folder: `bag/` (every delivered topic, inputs and node outputs, in MCAP with
+//! metadata.yaml), `summary.json` and `summary.txt`, and `plots/`. A replay stopped by a bad
+//! record still closes the output bag and writes the summary, which says why it stopped.
+
+mod graph;
+mod plots;
+mod summary;
+
+use anyhow::{Context, Result};
+use sillage_bag::{bag_info, Bag, BagWriter, QosProfile, ReadOptions, WriterOptions};
+use sillage_core::executor::Record;
+use sillage_core::time::{nanos, secs};
+use sillage_stack::StackConfig;
+use std::path::PathBuf;
+use std::time::Instant;
 
 /// Arguments of `sillage replay`.
 #[derive(clap::Args)]
 pub struct Args {
-    /// Bags to replay.
-    pub bags: Vec<std::path::PathBuf>,
+    /// Bags to replay (folders with metadata.yaml, or .mcap / .db3 files), read as one stream.
+    #[arg(required = true)]
+    pub bags: Vec<PathBuf>,
+    /// ROS 2 parameter file for the nodes (default: built-in defaults).
+    #[arg(long)]
+    pub params: Option<PathBuf>,
+    /// Output folder (default: out/replay-<bag name>).
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// Topic remap `from:=to` applied to every node (repeatable), e.g. `chem:=/robot/mox`.
+    #[arg(long = "remap", value_name = "FROM:=TO")]
+    pub remaps: Vec<String>,
+    /// Namespace of the nodes (their relative topics resolve inside it).
+    #[arg(long, default_value = "")]
+    pub namespace: String,
+    /// Start this many seconds after the bag's first message.
+    #[arg(long, value_name = "S")]
+    pub start: Option<f64>,
+    /// Replay only this many seconds.
+    #[arg(long, value_name = "S")]
+    pub duration: Option<f64>,
+    /// Plot image format.
+    #[arg(long, value_enum, default_value = "svg")]
+    pub plot_format: plots::Format,
+    /// Do not draw plots.
+    #[arg(long)]
+    pub no_plots: bool,
+    /// Stop at the first undecodable message, schema mismatch or backward log time.
+    #[arg(long)]
+    pub strict: bool,
+    /// Do not show a progress bar.
+    #[arg(long)]
+    pub quiet: bool,
 }
 
 /// `sillage bag ...` subcommands.
@@ -13,16 +63,190 @@ pub enum BagCommand {
     /// Topics, types, counts, duration and storage of a bag.
     Info {
         /// The bag (folder or file).
-        bag: std::path::PathBuf,
+        bag: PathBuf,
+        /// Print JSON instead of text.
+        #[arg(long)]
+        json: bool,
     },
 }
 
+fn parse_remap(s: &str) -> Result<(String, String)> {
+    let (a, b) = s.split_once(":=").with_context(|| format!("remap '{s}' is not of the form from:=to"))?;
+    anyhow::ensure!(!a.is_empty() && !b.is_empty(), "remap '{s}' has an empty side");
+    Ok((a.to_string(), b.to_string()))
+}
+
 /// Runs `sillage replay`.
-pub fn run(_args: Args) -> anyhow::Result<()> {
-    anyhow::bail!("'sillage replay' is not available in this build yet")
+pub fn run(args: Args) -> Result<()> {
+    let started = Instant::now();
+    let bag = Bag::open_many(&args.bags)?;
+    let info = bag_info(&bag)?;
+    let (first, last) = info.span.unwrap_or((0, 0));
+    let start = first + args.start.map_or(0, nanos);
+    let end = match args.duration {
+        Some(d) => start.saturating_add(nanos(d)),
+        None => last,
+    };
+    anyhow::ensure!(end >= start, "--start/--duration select nothing: the bag spans {:.3} s", secs(last - first));
+    let remaps = args.remaps.iter().map(|r| parse_remap(r)).collect::<Result<Vec<_>>>()?;
+    let cfg = StackConfig { namespace: args.namespace.clone(), params_file: args.params.clone(), remaps, ..Default::default() };
+    let graph = graph::Graph::of(&cfg)?;
+    let inputs = graph.inputs();
+    let mut ex = sillage_stack::build(&cfg)?;
+
+    let out_dir = args.out.clone().unwrap_or_else(|| PathBuf::from("out").join(format!("replay-{}", bag.name)));
+    std::fs::create_dir_all(&out_dir).with_context(|| format!("creating {}", out_dir.display()))?;
+    let mut writer = BagWriter::create(out_dir.join("bag"), WriterOptions { overwrite: true, ..Default::default() })?;
+
+    let read = ReadOptions { start, end, topics: None, strict: args.strict };
+    let mut messages = bag.messages(&read)?;
+    let mut collector = summary::Collector::new(None);
+    let mut plot = plots::PlotData::new(start, end);
+    let bar = progress_bar(&args, start, end);
+    let mut record = |r: &Record| -> Result<(), sillage_bag::BagError> {
+        collector.record(r);
+        plot.record(r);
+        writer.write_on(r.topic, r.stamp, r.msg, &[QosProfile::from(graph.qos(r.topic))])
+    };
+    let mut progress = |t: sillage_core::Nanos| {
+        if let Some(b) = &bar {
+            b.set_position(((t - start).max(0) / 1_000_000) as u64);
+        }
+    };
+    let outcome = sillage_bag::replay::replay(&mut ex, &mut messages, &inputs, &mut record, &mut progress);
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
+    collector.finish();
+    let written = writer.finish();
+    let wall = started.elapsed().as_secs_f64();
+
+    let mut outputs = Vec::new();
+    let mut interrupted = outcome.error.as_ref().map(ToString::to_string);
+    match &written {
+        Ok(s) => outputs.push(format!("{} ({} messages)", s.dir.display(), s.metadata.message_count)),
+        Err(e) => interrupted = Some(interrupted.map_or_else(|| e.to_string(), |i| format!("{i}; then closing the output bag: {e}"))),
+    }
+    if !args.no_plots {
+        match plot.write(&out_dir.join("plots"), args.plot_format) {
+            Ok(paths) => outputs.extend(paths.iter().map(|p| p.display().to_string())),
+            Err(e) => eprintln!("warning: plots not drawn: {e}"),
+        }
+    }
+    let report = messages.report();
+    let mut skipped: Vec<summary::SkippedLine> = report
+        .topics
+        .iter()
+        .filter_map(|t| t.skip.as_ref().map(|s| summary::SkippedLine { topic: t.name.clone(), type_name: t.type_name.clone(), count: t.skipped, reason: s.to_string() }))
+        .collect();
+    for (topic, (ty, n, why)) in &outcome.not_injected {
+        let reason = match why {
+            Some(sillage_bag::replay::NotInjected::Recomputed) => "published by the graph itself (recomputed)".to_string(),
+            Some(sillage_bag::replay::NotInjected::WrongType(t)) => format!("the graph expects {t} on it"),
+            _ => "no node subscribes to it".to_string(),
+        };
+        skipped.push(summary::SkippedLine { topic: topic.clone(), type_name: ty.clone(), count: *n, reason });
+    }
+    let stats = ex.stats();
+    let executor = [("events", stats.events), ("late_inputs", stats.late_inputs), ("type_mismatches", stats.type_mismatches)]
+        .into_iter()
+        .map(|(k, v)| (k.to_string(), v))
+        .collect();
+    let json_path = out_dir.join("summary.json");
+    let text_path = out_dir.join("summary.txt");
+    outputs.push(json_path.display().to_string());
+    outputs.push(text_path.display().to_string());
+    let s = collector.summary(summary::Parts {
+        bags: args.bags.iter().map(|b| b.display().to_string()).collect(),
+        wall_s: wall,
+        injected: outcome.injected,
+        topic_counts: ex.topic_counts().into_iter().map(|(t, ty, n)| (t.to_string(), ty.to_string(), n)).collect(),
+        graph: &graph,
+        skipped,
+        executor,
+        warnings: report.warnings.iter().map(ToString::to_string).collect(),
+        warnings_dropped: report.warnings_dropped,
+        interrupted: interrupted.clone(),
+        outputs,
+    });
+    std::fs::write(&json_path, serde_json::to_string_pretty(&s)? + "\n").with_context(|| format!("writing {}", json_path.display()))?;
+    let text = s.text();
+    std::fs::write(&text_path, &text).with_context(|| format!("writing {}", text_path.display()))?;
+    print!("{text}");
+    if let Some(e) = interrupted {
+        anyhow::bail!("replay stopped early: {e} (outputs in {} hold what was computed until then)", out_dir.display());
+    }
+    Ok(())
+}
+
+fn progress_bar(args: &Args, start: sillage_core::Nanos, end: sillage_core::Nanos) -> Option<indicatif::ProgressBar> {
+    // Only for bags longer than a few seconds (and only on a terminal: indicatif hides itself
+    // otherwise).
+    if args.quiet || end - start < 10 * sillage_core::time::SECOND {
+        return None;
+    }
+    let bar = indicatif::ProgressBar::new(((end - start) / 1_000_000) as u64);
+    let style = indicatif::ProgressStyle::with_template("{spinner} replay [{bar:40}] {percent:>3}% bag time, {elapsed} elapsed, eta {eta}")
+        .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar());
+    bar.set_style(style.progress_chars("=> "));
+    Some(bar)
+}
+
+fn human_size(n: u64) -> String {
+    let units = ["B", "KiB", "MiB", "GiB", "TiB"];
+    let mut v = n as f64;
+    let mut i = 0;
+    while v >= 1024.0 && i + 1 < units.len() {
+        v /= 1024.0;
+        i += 1;
+    }
+    if i == 0 { format!("{n} B") } else { format!("{v:.1} {}", units[i]) }
 }
 
 /// Runs `sillage bag ...`.
-pub fn run_bag(_c: BagCommand) -> anyhow::Result<()> {
-    anyhow::bail!("'sillage bag' is not available in this build yet")
+pub fn run_bag(c: BagCommand) -> Result<()> {
+    let BagCommand::Info { bag, json } = c;
+    let b = Bag::open(&bag)?;
+    let info = bag_info(&b)?;
+    if json {
+        let v = serde_json::json!({
+            "files": info.files.iter().map(|f| serde_json::json!({
+                "path": f.path.display().to_string(), "storage": f.storage.identifier(), "size": f.size,
+                "message_count": f.message_count, "start_ns": f.span.map(|s| s.0), "end_ns": f.span.map(|s| s.1),
+            })).collect::<Vec<_>>(),
+            "message_count": info.message_count,
+            "start_ns": info.span.map(|s| s.0), "end_ns": info.span.map(|s| s.1),
+            "duration_s": secs(info.duration()),
+            "topics": info.topics.iter().map(|t| serde_json::json!({
+                "name": t.name, "type": t.type_name, "count": t.count, "serialization_format": t.serialization_format, "known": t.known,
+            })).collect::<Vec<_>>(),
+            "warnings": b.warnings.iter().map(ToString::to_string).collect::<Vec<_>>(),
+        });
+        println!("{}", serde_json::to_string_pretty(&v)?);
+        return Ok(());
+    }
+    let size: u64 = info.files.iter().map(|f| f.size).sum();
+    let mut storages: Vec<&str> = info.files.iter().map(|f| f.storage.identifier()).collect();
+    storages.dedup();
+    let names: Vec<String> = info.files.iter().map(|f| f.path.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default()).collect();
+    println!("Files:             {}", names.join(", "));
+    println!("Bag size:          {}", human_size(size));
+    println!("Storage id:        {}", storages.join(", "));
+    println!("Duration:          {:.9} s", secs(info.duration()));
+    if let Some((a, z)) = info.span {
+        println!("Start:             {:.9} s ({a} ns)", secs(a));
+        println!("End:               {:.9} s ({z} ns)", secs(z));
+    }
+    println!("Messages:          {}", info.message_count);
+    let w = info.topics.iter().map(|t| t.name.len()).max().unwrap_or(0);
+    let tw = info.topics.iter().map(|t| t.type_name.len()).max().unwrap_or(0);
+    for (i, t) in info.topics.iter().enumerate() {
+        let lead = if i == 0 { "Topic information: " } else { "                   " };
+        let note = if t.known { "" } else { "  (not used by sillage)" };
+        println!("{lead}{:<w$}  {:<tw$}  {:>9} msgs  {}{note}", t.name, t.type_name, t.count, t.serialization_format);
+    }
+    for wn in &b.warnings {
+        eprintln!("warning: {wn}");
+    }
+    Ok(())
 }

@@ -1,0 +1,119 @@
+//! `sillage replay` and `sillage bag info` on the demo bag: outputs, determinism, and a
+//! replay interrupted by a corrupt chunk that still leaves a readable output bag.
+
+use sillage_bag::{Bag, ReadOptions};
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+fn demo() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../tests/fixtures/demo/workshop_crossing")
+}
+
+fn tmp(name: &str) -> PathBuf {
+    let d = std::env::temp_dir().join(format!("sillage-cli-{}-{name}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&d);
+    d
+}
+
+fn sillage(args: &[&str]) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_sillage")).args(args).output().expect("runs")
+}
+
+fn read_all(bag: &Path) -> Vec<(i64, String, Vec<u8>)> {
+    let b = Bag::open(bag).expect("opens");
+    b.messages(&ReadOptions { strict: true, ..Default::default() })
+        .expect("reads")
+        .map(|m| {
+            let m = m.expect("message");
+            (m.log_time, m.topic.to_string(), m.msg.encode().expect("encodes"))
+        })
+        .collect()
+}
+
+#[test]
+fn replay_writes_bag_summary_and_plots_deterministically() {
+    let out = tmp("demo");
+    let o = sillage(&["replay", demo().to_str().expect("utf-8"), "--out", out.to_str().expect("utf-8"), "--quiet"]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(text.contains("/chem") && text.contains("modes:"), "{text}");
+    let s: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).expect("summary")).expect("json");
+    assert_eq!(s["injected"], 6660);
+    assert!(s["interrupted"].is_null());
+    let count = |t: &str| s["topics"].as_array().expect("topics").iter().find(|x| x["topic"] == t).map(|x| x["count"].as_u64().unwrap_or(0));
+    assert_eq!(count("/chem"), Some(3000));
+    assert_eq!(count("/odom"), Some(3000));
+    for p in ["chem", "bearing", "plume", "modes", "trajectory"] {
+        let f = out.join("plots").join(format!("{p}.svg"));
+        assert!(std::fs::metadata(&f).map(|m| m.len() > 1000).unwrap_or(false), "{}", f.display());
+    }
+    // The output bag holds the inputs unchanged, plus the nodes' outputs.
+    let input = read_all(&demo());
+    let output = read_all(&out.join("bag"));
+    let inputs_again: Vec<_> = output.iter().filter(|m| ["/chem", "/wind", "/odom", "/e_stop"].contains(&m.1.as_str())).cloned().collect();
+    assert_eq!(inputs_again, input);
+    assert!(output.len() > input.len());
+    // Run B == run A, byte for byte.
+    let again = tmp("demo-again");
+    let o = sillage(&["replay", demo().to_str().expect("utf-8"), "--out", again.to_str().expect("utf-8"), "--quiet", "--no-plots"]);
+    assert!(o.status.success());
+    let a = std::fs::read(out.join("bag/bag_0.mcap")).expect("a");
+    let b = std::fs::read(again.join("bag/bag_0.mcap")).expect("b");
+    assert!(a == b, "two replays of the same bag differ");
+    let _ = std::fs::remove_dir_all(&out);
+    let _ = std::fs::remove_dir_all(&again);
+}
+
+#[test]
+fn start_and_duration_select_a_window() {
+    let out = tmp("window");
+    let o = sillage(&["replay", demo().to_str().expect("utf-8"), "--out", out.to_str().expect("utf-8"), "--quiet", "--no-plots", "--start", "10", "--duration", "5"]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let s: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).expect("summary")).expect("json");
+    // 5 s of 50 + 10 + 50 + 1 Hz streams: about 555 messages (window edges +-1 per stream).
+    let n = s["injected"].as_u64().expect("count");
+    assert!((550..=560).contains(&n), "{n}");
+    let _ = std::fs::remove_dir_all(&out);
+}
+
+#[test]
+fn a_corrupt_chunk_stops_the_replay_but_the_output_is_closed_and_says_so() {
+    let dir = tmp("corrupt");
+    let bagdir = dir.join("broken");
+    std::fs::create_dir_all(&bagdir).expect("mkdir");
+    let src = demo().join("workshop_crossing_0.mcap");
+    let mut bytes = std::fs::read(&src).expect("demo");
+    // Corrupt the middle of the second chunk's compressed data.
+    let s = sillage_bag::mcap_read::McapSource::open(&src, 0, i64::MAX).expect("opens");
+    let chunks = &s.summary().expect("summary").chunk_indexes;
+    assert!(chunks.len() >= 2, "the demo bag has {} chunks", chunks.len());
+    let mid = (chunks[1].chunk_start_offset + chunks[1].chunk_length / 2) as usize;
+    for b in &mut bytes[mid..mid + 64] {
+        *b ^= 0x5a;
+    }
+    std::fs::write(bagdir.join("broken_0.mcap"), &bytes).expect("write");
+    let out = dir.join("out");
+    let o = sillage(&["replay", bagdir.to_str().expect("utf-8"), "--out", out.to_str().expect("utf-8"), "--quiet", "--no-plots"]);
+    assert!(!o.status.success());
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("broken_0.mcap") && err.contains("chunk at byte"), "{err}");
+    let s: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).expect("summary")).expect("json");
+    assert!(s["interrupted"].as_str().is_some_and(|e| e.contains("broken_0.mcap")), "{s}");
+    let got = read_all(&out.join("bag"));
+    assert!(!got.is_empty(), "the output bag holds what was computed before the bad chunk");
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn bag_info_lists_topics_counts_and_storage() {
+    let o = sillage(&["bag", "info", demo().to_str().expect("utf-8"), "--json"]);
+    assert!(o.status.success());
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).expect("json");
+    assert_eq!(v["message_count"], 6660);
+    assert_eq!(v["files"][0]["storage"], "mcap");
+    let d = v["duration_s"].as_f64().expect("duration");
+    assert!((d - 59.98).abs() < 0.01, "{d}");
+    let o = sillage(&["bag", "info", PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../tests/fixtures/bags/rosbags_sqlite3").to_str().expect("utf-8")]);
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(text.contains("sqlite3") && text.contains("/chatter") && text.contains("not used by sillage"), "{text}");
+}
