@@ -16,6 +16,7 @@ cd "$root"
 # its output path as its only (optional) argument.
 FIXTURES=(
     "tests/refs/make_cdr_fixtures.py tests/fixtures/cdr/cdr_cases.json"
+    "tests/refs/world_refs.py nodes/world/tests/fixtures/world_refs.json"
     "tests/refs/plume_filters.py tests/fixtures/plume/plume_filters.json"
     "tests/refs/bag_make_fixtures.py tests/fixtures/bags/expected.jsonl"
 )
