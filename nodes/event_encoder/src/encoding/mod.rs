@@ -243,7 +243,9 @@ impl LevelEncoder {
             return 0;
         }
         let delta = self.delta();
-        self.range.update(t, x);
+        if self.params.delta_mode == DeltaMode::Relative {
+            self.range.update(t, x);
+        }
         let Some(mut g) = self.grid else {
             self.grid = Some(self.start(x, delta));
             self.prev = (t, x);
