@@ -1,30 +1,36 @@
-//! The transport-independent heart of the DDS executor: node cores wired to topics, inputs
-//! decoded by sillage's own CDR codec, publications encoded by it, local delivery between the
-//! nodes of one process, timers on the ROS clock, `/diagnostics`, and the intake guard.
+//! The transport-independent heart of the DDS executor: hosted node cores wired to topics,
+//! local delivery between the nodes of one process, timers on the ROS clock, `/diagnostics`,
+//! the zero command on shutdown, and the intake guard.
+//!
+//! Each core is hosted by the r2r executor's [`NodeRuntime`] (bytes in, bytes out: sillage's
+//! own CDR codec both ways, the same counters and executor status), so both executors treat a
+//! message, a parameter and a failure alike; this module adds what DDS without rcl needs.
 //!
 //! Contract with a transport (the `dds` module, or a test):
 //! - create one subscription per [`Engine::inputs`] entry and one publication per
 //!   [`Engine::outputs`] entry, with the DDS names and QoS given there;
 //! - hand every received sample from a remote writer to [`Engine::on_sample`] (samples from
-//!   this process's own writers must be skipped: they were already delivered locally);
-//! - call [`Engine::poll_timers`] whenever [`Engine::wait_hint`] says so (or at least every
-//!   100 ms), and report discovery through [`Engine::on_remote_writer`] /
-//!   [`Engine::on_remote_reader`] / [`Engine::on_remote_lost`];
+//!   this process's own writers must be skipped: they were delivered locally already);
+//! - call [`Engine::poll_timers`] when [`Engine::wait_hint`] says so (or at least every 100
+//!   ms); report discovery through [`Engine::on_remote_writer`], [`Engine::on_remote_reader`]
+//!   and [`Engine::on_remote_lost`]; call [`Engine::stop`] before closing;
 //! - pass system time (ns since the epoch) and a steady time (ns, any origin) in; the engine
 //!   reads no clock itself.
 //!
-//! Publications of a node reach the other nodes of the process at once, in publication order
-//! (first in, first out, like the in-process executor), and go to the wire encoded once.
+//! A node's publications reach the other nodes of the process at once, first in first out
+//! (as in the in-process executor), and go to the wire once.
 
 use crate::clock::{ClockJump, ClockMode, RosClock, TimerId, Timers};
 use crate::error::DdsError;
 use crate::intake::{EndpointId, Intake, IntakeStats, Problem};
 use crate::names;
-use crate::qos::QosSpec;
+use crate::qos::{self, QosSpec};
 use crate::setup::Setup;
-use sillage_core::executor::{remap_topic, resolve_topic};
-use sillage_core::msg::{Clock, DiagnosticArray, DiagnosticStatus, Header};
-use sillage_core::{Msg, Nanos, NodeCore, Outbox, Port, Qos, RosMessage};
+use sillage_core::msg::{Clock, DiagnosticArray, DiagnosticStatus};
+use sillage_core::{Msg, Nanos, Qos, RosMessage};
+use sillage_ros2::names::resolved_ports;
+use sillage_ros2::runtime::RuntimeError;
+use sillage_ros2::{diagnostics, NodeRuntime};
 use std::collections::{HashMap, VecDeque};
 
 /// Name of the executor's own diagnostic status ("node: part" convention).
@@ -79,25 +85,28 @@ pub trait Wire {
 pub struct EngineOptions {
     /// Flood threshold per input [Hz].
     pub max_input_rate: f64,
-    /// Period of `/diagnostics` [ns of ROS time].
-    pub diagnostics_period: Nanos,
     /// Local deliveries allowed in one cascade before it is cut short.
     pub max_cascade: usize,
 }
 
 impl Default for EngineOptions {
     fn default() -> Self {
-        EngineOptions { max_input_rate: 1000.0, diagnostics_period: sillage_core::time::SECOND, max_cascade: 10_000 }
+        EngineOptions { max_input_rate: 1000.0, max_cascade: 10_000 }
     }
 }
 
 struct Slot {
-    core: Box<dyn NodeCore>,
-    fqn: String,
+    rt: NodeRuntime,
     outputs: Vec<usize>,
 }
 
 const DIAG_TIMER: TimerId = (usize::MAX, 0);
+const KEY_CLOCK: usize = usize::MAX;
+const KEY_OUTPUTS: usize = usize::MAX - 1;
+const KEY_CASCADE: usize = usize::MAX - 2;
+
+/// Publications waiting to go out: (node, node output, CDR).
+type Pending = Vec<(usize, usize, Vec<u8>)>;
 
 /// The engine.
 pub struct Engine {
@@ -109,33 +118,30 @@ pub struct Engine {
     timers: Timers,
     started: bool,
     intake: Intake,
-    outbox: Outbox,
-    buf: Vec<u8>,
-    queue: VecDeque<(usize, Msg)>,
+    queue: VecDeque<(usize, Vec<u8>)>,
     diag_output: usize,
-    diag_period: Nanos,
     bad_at_last_report: (u64, u64),
     max_cascade: usize,
 }
 
-fn port_endpoints(
-    ports: &[Port],
-    node: usize,
-    name: &str,
-    fqn: &str,
-    p: &sillage_core::executor::Placement,
-) -> Result<Vec<Endpoint>, DdsError> {
-    ports
-        .iter()
-        .enumerate()
-        .map(|(port, pt)| {
-            let topic = remap_topic(&pt.topic, p, name);
-            if !Msg::is_known_type(pt.type_name) {
-                return Err(DdsError::UnknownType { node: fqn.to_string(), topic, type_name: pt.type_name.to_string() });
+fn check_types(inputs: &[Endpoint], outputs: &[Endpoint], slots: &[Slot]) -> Result<(), DdsError> {
+    let mut types: HashMap<&str, &'static str> = HashMap::new();
+    for ep in inputs.iter().chain(outputs) {
+        match types.get(ep.topic.as_str()) {
+            Some(t) if *t != ep.type_name => {
+                let node = match ep.owner {
+                    Owner::Node { node, .. } => slots[node].rt.fqn().to_string(),
+                    _ => "executor".to_string(),
+                };
+                return Err(DdsError::TypeConflict { topic: ep.topic.clone(), first: t.to_string(), second: ep.type_name.to_string(), node });
             }
-            Endpoint::new(Owner::Node { node, port }, topic, pt.type_name, QosSpec::of(pt.qos), Some(pt.qos))
-        })
-        .collect()
+            Some(_) => {}
+            None => {
+                types.insert(&ep.topic, ep.type_name);
+            }
+        }
+    }
+    Ok(())
 }
 
 impl Engine {
@@ -145,51 +151,36 @@ impl Engine {
         let mut inputs = Vec::new();
         let mut outputs = Vec::new();
         for (node, placed) in setup.nodes.into_iter().enumerate() {
-            let name = placed.placement.name.clone().unwrap_or_else(|| placed.core.name().to_string());
-            let fqn = resolve_topic(&name, &placed.placement.namespace, &name);
-            inputs.extend(port_endpoints(&placed.core.inputs(), node, &name, &fqn, &placed.placement)?);
-            let outs = port_endpoints(&placed.core.outputs(), node, &name, &fqn, &placed.placement)?;
-            let first = outputs.len();
-            outputs.extend(outs);
-            for (index, &period) in placed.core.timers().iter().enumerate() {
+            let rt = placed.runtime;
+            let fqn = rt.fqn().to_string();
+            let ports: Vec<_> = rt.inputs().iter().chain(rt.outputs()).collect();
+            let resolved = resolved_ports(rt.core(), &placed.placement);
+            let mut outs = Vec::new();
+            let n_in = rt.inputs().len();
+            for (k, ((dir, _, topic, type_name), port)) in resolved.into_iter().zip(ports).enumerate() {
+                if !Msg::is_known_type(type_name) {
+                    return Err(DdsError::UnknownType { node: fqn, topic, type_name: type_name.to_string() });
+                }
+                let (owner_port, list) = if dir == "in" { (k, &mut inputs) } else { (k - n_in, &mut outputs) };
+                let ep = Endpoint::new(Owner::Node { node, port: owner_port }, topic, type_name, QosSpec::of(port.qos), Some(port.qos))?;
+                if dir != "in" {
+                    outs.push(list.len());
+                }
+                list.push(ep);
+            }
+            for (index, &period) in rt.timers().iter().enumerate() {
                 if period <= 0 {
                     return Err(DdsError::BadTimer { node: fqn, index, period });
                 }
             }
-            slots.push(Slot { core: placed.core, fqn, outputs: (first..outputs.len()).collect() });
+            slots.push(Slot { rt, outputs: outs });
         }
         let diag_output = outputs.len();
-        outputs.push(Endpoint::new(
-            Owner::Diagnostics,
-            "/diagnostics".into(),
-            DiagnosticArray::TYPE_NAME,
-            QosSpec::of(Qos::Reliable),
-            None,
-        )?);
+        outputs.push(Endpoint::new(Owner::Diagnostics, diagnostics::TOPIC.into(), DiagnosticArray::TYPE_NAME, QosSpec::of(Qos::Reliable), None)?);
         if setup.clock == ClockMode::Simulated {
-            inputs.push(Endpoint::new(Owner::Clock, "/clock".into(), Clock::TYPE_NAME, QosSpec::CLOCK, None)?);
+            inputs.push(Endpoint::new(Owner::Clock, "/clock".into(), Clock::TYPE_NAME, qos::CLOCK, None)?);
         }
-        let mut types: HashMap<&str, (&'static str, String)> = HashMap::new();
-        for ep in inputs.iter().chain(outputs.iter()) {
-            let who = match ep.owner {
-                Owner::Node { node, .. } => slots[node].fqn.clone(),
-                _ => "executor".to_string(),
-            };
-            match types.get(ep.topic.as_str()) {
-                Some((t, _)) if *t != ep.type_name => {
-                    return Err(DdsError::TypeConflict {
-                        topic: ep.topic.clone(),
-                        first: t.to_string(),
-                        second: ep.type_name.to_string(),
-                        node: who,
-                    })
-                }
-                Some(_) => {}
-                None => {
-                    types.insert(&ep.topic, (ep.type_name, who));
-                }
-            }
-        }
+        check_types(&inputs, &outputs, &slots)?;
         let mut local: HashMap<String, Vec<usize>> = HashMap::new();
         for (i, ep) in inputs.iter().enumerate() {
             if let Owner::Node { .. } = ep.owner {
@@ -205,11 +196,8 @@ impl Engine {
             timers: Timers::new(),
             started: false,
             intake: Intake::new(opts.max_input_rate),
-            outbox: Outbox::new(),
-            buf: Vec::with_capacity(256),
             queue: VecDeque::new(),
             diag_output,
-            diag_period: opts.diagnostics_period.max(1),
             bad_at_last_report: (0, 0),
             max_cascade: opts.max_cascade.max(1),
         })
@@ -227,17 +215,17 @@ impl Engine {
 
     /// Fully qualified node names, in setup order.
     pub fn node_names(&self) -> Vec<&str> {
-        self.slots.iter().map(|s| s.fqn.as_str()).collect()
+        self.slots.iter().map(|s| s.rt.fqn()).collect()
+    }
+
+    /// The hosted node at `index`.
+    pub fn node(&self, index: usize) -> Option<&NodeRuntime> {
+        self.slots.get(index).map(|s| &s.rt)
     }
 
     /// The clock mode.
     pub fn clock_mode(&self) -> ClockMode {
         self.clock.mode()
-    }
-
-    /// Current ROS time [ns] given the system time.
-    pub fn ros_now(&self, system: Nanos) -> Nanos {
-        self.clock.now(system)
     }
 
     /// Counters since start.
@@ -250,39 +238,32 @@ impl Engine {
         self.intake.drain_log()
     }
 
-    /// The node core at `index`, to inspect its state.
-    pub fn node(&self, index: usize) -> Option<&dyn NodeCore> {
-        self.slots.get(index).map(|s| s.core.as_ref())
-    }
-
     fn start(&mut self, system: Nanos) {
         if self.started {
             return;
         }
         self.started = true;
         let now = self.clock.now(system);
-        let mut t = Timers::new();
         for (node, slot) in self.slots.iter().enumerate() {
-            for (index, period) in slot.core.timers().into_iter().enumerate() {
-                t.add((node, index), period, now);
+            for (index, &period) in slot.rt.timers().iter().enumerate() {
+                self.timers.add((node, index), period, now);
             }
         }
-        t.add(DIAG_TIMER, self.diag_period, now);
-        self.timers = t;
+        self.timers.add(DIAG_TIMER, diagnostics::PERIOD, now);
     }
 
     /// How long the transport may wait for input before calling [`Engine::poll_timers`]
-    /// [ns of system time]; `None` while simulated time waits for `/clock`.
+    /// [ns of system time]; `None` with simulated time (timers wait for `/clock`).
     pub fn wait_hint(&mut self, system: Nanos) -> Option<Nanos> {
         self.start(system);
-        if !self.clock.running() || self.clock.mode() == ClockMode::Simulated {
+        if self.clock.mode() == ClockMode::Simulated {
             return None;
         }
         self.timers.next_deadline().map(|d| (d - system).max(0))
     }
 
     /// Fires the timers due at the current ROS time.
-    pub fn poll_timers(&mut self, system: Nanos, steady: Nanos, wire: &mut dyn Wire) {
+    pub fn poll_timers(&mut self, system: Nanos, wire: &mut dyn Wire) {
         self.start(system);
         if !self.clock.running() {
             return;
@@ -292,12 +273,12 @@ impl Engine {
         self.timers.take_due(now, &mut due);
         for (node, index) in due {
             if (node, index) == DIAG_TIMER {
-                self.publish_diagnostics(now, steady, wire);
-            } else {
-                self.slots[node].core.on_timer(now, index, &mut self.outbox);
-                self.flush(node, now, steady, wire);
-                self.run_queue(now, steady, wire);
+                self.publish_diagnostics(now, wire);
+                continue;
             }
+            let mut pending = Pending::new();
+            let r = self.slots[node].rt.on_timer(now, index, &mut |o, b| pending.push((node, o, b.to_vec())));
+            self.after_call(r, pending, now, wire);
         }
     }
 
@@ -306,111 +287,126 @@ impl Engine {
         self.start(system);
         let Some(ep) = self.inputs.get(input) else { return };
         self.intake.stats.samples += 1;
+        let (topic, owner, droppable) = (ep.topic.clone(), ep.owner, ep.class != Some(Qos::Latched));
         if self.intake.is_bad_writer(writer) {
             self.intake.stats.wrong_type += 1;
-            let (topic, ty) = (ep.topic.clone(), ep.dds_type.clone());
-            self.intake.report(input, Problem::WrongType, steady, || {
+            let ty = ep.dds_type.clone();
+            self.intake.report(input, Problem::WrongType, || {
                 format!("{topic}: dropped a sample from writer {writer:032x}, which announced another type than {ty}")
             });
             return;
         }
-        let droppable = ep.class != Some(Qos::Latched);
-        let topic = ep.topic.clone();
         if !self.intake.admit(input, droppable, steady, &topic) {
             return;
         }
-        let msg = match Msg::decode(ep.type_name, cdr) {
-            Ok(m) => m,
-            Err(e) => {
-                self.intake.stats.malformed += 1;
-                self.intake.report(input, Problem::Malformed, steady, || {
-                    format!("{topic}: dropped a malformed sample ({} bytes) from writer {writer:032x}: {e}", cdr.len())
-                });
-                return;
-            }
-        };
-        match ep.owner {
-            Owner::Clock => {
-                if let Msg::Clock(c) = msg {
-                    self.on_clock(system, steady, c.clock.to_nanos(), wire);
+        match owner {
+            Owner::Clock => match Msg::decode(Clock::TYPE_NAME, cdr) {
+                Ok(Msg::Clock(c)) => self.on_clock(system, c.clock.to_nanos(), wire),
+                Ok(_) => {}
+                Err(e) => {
+                    self.intake.stats.malformed += 1;
+                    self.intake.report(input, Problem::Malformed, || format!("{topic}: dropped a malformed sample from writer {writer:032x}: {e}"));
                 }
-            }
+            },
             Owner::Node { node, port } => {
-                self.intake.stats.delivered += 1;
                 let now = self.clock.now(system);
-                self.slots[node].core.on_message(now, port, &msg, &mut self.outbox);
-                self.flush(node, now, steady, wire);
-                self.run_queue(now, steady, wire);
+                let mut pending = Pending::new();
+                let r = self.slots[node].rt.on_input(now, port, cdr, &mut |o, b| pending.push((node, o, b.to_vec())));
+                if let Err(e @ RuntimeError::Decode { .. }) = &r {
+                    self.intake.stats.malformed += 1;
+                    let len = cdr.len();
+                    self.intake.report(input, Problem::Malformed, || {
+                        format!("{topic}: dropped a malformed sample ({len} bytes) from writer {writer:032x}: {e}")
+                    });
+                    return;
+                }
+                self.intake.stats.delivered += 1;
+                self.after_call(r, pending, now, wire);
             }
             Owner::Diagnostics => {}
         }
     }
 
-    fn on_clock(&mut self, system: Nanos, steady: Nanos, t: Nanos, wire: &mut dyn Wire) {
+    fn on_clock(&mut self, system: Nanos, t: Nanos, wire: &mut dyn Wire) {
         let before = self.clock.now(system);
         if let ClockJump::Backward(by) = self.clock.on_clock(t) {
             self.intake.stats.clock_jumps_back += 1;
             self.timers.on_jump_back(before, t);
-            self.intake.report(usize::MAX, Problem::Clock, steady, || {
+            self.intake.report(KEY_CLOCK, Problem::Clock, || {
                 format!("/clock went back by {by} ns (to {t} ns): timers keep the time they had left")
             });
         }
-        self.poll_timers(system, steady, wire);
+        self.poll_timers(system, wire);
     }
 
-    /// Publishes what node `node` put in the outbox and queues local deliveries.
-    fn flush(&mut self, node: usize, now: Nanos, steady: Nanos, wire: &mut dyn Wire) {
-        let items: Vec<(usize, Msg)> = self.outbox.drain().collect();
-        for (out, msg) in items {
-            let ep = match self.slots[node].outputs.get(out) {
-                Some(&ep) if self.outputs[ep].type_name == msg.type_name() => ep,
-                _ => {
-                    self.intake.stats.publish_failures += 1;
-                    let (fqn, got) = (self.slots[node].fqn.clone(), msg.type_name());
-                    self.intake.report(usize::MAX - 1, Problem::Publish, steady, || {
-                        format!("{fqn}: published {got} on output {out}, which does not declare that type: dropped")
-                    });
-                    continue;
-                }
-            };
-            self.send(ep, &msg, now, steady, wire);
+    /// Publishes what a node call produced, logs its problem, and runs the local deliveries.
+    fn after_call(&mut self, r: Result<(), RuntimeError>, pending: Pending, now: Nanos, wire: &mut dyn Wire) {
+        if let Err(e) = r {
+            self.intake.report(KEY_OUTPUTS, Problem::Publish, || e.to_string());
+        }
+        self.dispatch(pending, wire);
+        self.run_queue(now, wire);
+    }
+
+    fn dispatch(&mut self, pending: Pending, wire: &mut dyn Wire) {
+        for (node, out, bytes) in pending {
+            let Some(&ep) = self.slots[node].outputs.get(out) else { continue };
+            if let Err(reason) = wire.publish(ep, &bytes) {
+                self.intake.stats.publish_failures += 1;
+                self.slots[node].rt.note_publish_error(out, &reason);
+                let topic = self.outputs[ep].topic.clone();
+                self.intake.report(self.inputs.len() + ep, Problem::Publish, || format!("{topic}: publication failed: {reason}"));
+            }
+            self.enqueue_local(ep, bytes);
         }
     }
 
-    fn send(&mut self, ep: usize, msg: &Msg, _now: Nanos, steady: Nanos, wire: &mut dyn Wire) {
-        let topic = &self.outputs[ep].topic;
-        let result = msg.encode_into(&mut self.buf).map_err(|e| e.to_string()).and_then(|()| wire.publish(ep, &self.buf));
-        if let Err(reason) = result {
-            self.intake.stats.publish_failures += 1;
-            let topic = topic.clone();
-            self.intake.report(self.inputs.len() + ep, Problem::Publish, steady, || format!("{topic}: publication failed: {reason}"));
-        }
+    fn enqueue_local(&mut self, ep: usize, bytes: Vec<u8>) {
         if let Some(subs) = self.local.get(&self.outputs[ep].topic) {
             for &input in subs {
-                self.queue.push_back((input, msg.clone()));
+                self.queue.push_back((input, bytes.clone()));
             }
         }
     }
 
-    fn run_queue(&mut self, now: Nanos, steady: Nanos, wire: &mut dyn Wire) {
+    fn run_queue(&mut self, now: Nanos, wire: &mut dyn Wire) {
         let mut n = 0;
-        while let Some((input, msg)) = self.queue.pop_front() {
+        while let Some((input, bytes)) = self.queue.pop_front() {
             n += 1;
             if n > self.max_cascade {
                 let left = self.queue.len() + 1;
                 self.queue.clear();
                 self.intake.stats.runaways += 1;
                 let limit = self.max_cascade;
-                self.intake.report(usize::MAX - 2, Problem::Runaway, steady, || {
+                self.intake.report(KEY_CASCADE, Problem::Runaway, || {
                     format!("more than {limit} local deliveries in one cascade (nodes publishing to each other without end?): {left} dropped")
                 });
                 return;
             }
             let Owner::Node { node, port } = self.inputs[input].owner else { continue };
             self.intake.stats.delivered_local += 1;
-            self.slots[node].core.on_message(now, port, &msg, &mut self.outbox);
-            self.flush(node, now, steady, wire);
+            let mut pending = Pending::new();
+            let r = self.slots[node].rt.on_input(now, port, &bytes, &mut |o, b| pending.push((node, o, b.to_vec())));
+            if let Err(e) = r {
+                self.intake.report(KEY_OUTPUTS, Problem::Publish, || e.to_string());
+            }
+            self.dispatch(pending, wire);
         }
+    }
+
+    /// Publishes a zero command on every velocity output (Twist or TwistStamped) of every
+    /// node, as the r2r executor does on SIGINT or SIGTERM, before the transport closes.
+    pub fn stop(&mut self, system: Nanos, wire: &mut dyn Wire) {
+        let now = self.clock.now(system);
+        for node in 0..self.slots.len() {
+            let mut pending = Pending::new();
+            let r = self.slots[node].rt.stop_commands(now, &mut |o, b| pending.push((node, o, b.to_vec())));
+            if let Err(e) = r {
+                self.intake.report(KEY_OUTPUTS, Problem::Publish, || e.to_string());
+            }
+            self.dispatch(pending, wire);
+        }
+        self.queue.clear();
     }
 
     fn transport_status(&mut self) -> DiagnosticStatus {
@@ -419,7 +415,7 @@ impl Engine {
         let fresh = now_bad.0 > self.bad_at_last_report.0 || now_bad.1 > self.bad_at_last_report.1;
         self.bad_at_last_report = now_bad;
         let level = if fresh { DiagnosticStatus::WARN } else { DiagnosticStatus::OK };
-        let message = if s.bad_inputs() == 0 && now_bad.1 == 0 {
+        let message = if now_bad == (0, 0) {
             "ok".to_string()
         } else {
             format!(
@@ -451,48 +447,49 @@ impl Engine {
         )
     }
 
-    fn publish_diagnostics(&mut self, now: Nanos, steady: Nanos, wire: &mut dyn Wire) {
-        let mut status = Vec::new();
-        for s in &self.slots {
-            s.core.diagnostics(now, &mut status);
+    fn publish_diagnostics(&mut self, now: Nanos, wire: &mut dyn Wire) {
+        let mut array = diagnostics::collect(now, self.slots.iter_mut().map(|s| &mut s.rt));
+        array.status.push(self.transport_status());
+        match Msg::DiagnosticArray(array).encode() {
+            Ok(bytes) => {
+                if let Err(reason) = wire.publish(self.diag_output, &bytes) {
+                    self.intake.stats.publish_failures += 1;
+                    self.intake.report(self.inputs.len() + self.diag_output, Problem::Publish, || format!("/diagnostics: publication failed: {reason}"));
+                }
+                self.enqueue_local(self.diag_output, bytes);
+                self.run_queue(now, wire);
+            }
+            Err(e) => self.intake.report(KEY_OUTPUTS, Problem::Publish, || format!("/diagnostics: {e}")),
         }
-        status.push(self.transport_status());
-        let msg = Msg::DiagnosticArray(DiagnosticArray { header: Header::new(now, ""), status });
-        self.send(self.diag_output, &msg, now, steady, wire);
-        self.run_queue(now, steady, wire);
-    }
-
-    fn conflict_line(&mut self, key: usize, steady: Nanos, line: String) {
-        self.intake.report(key, Problem::TypeConflict, steady, || line);
     }
 
     /// Discovery announced remote writer `writer` on `dds_topic` with type `dds_type`.
-    pub fn on_remote_writer(&mut self, steady: Nanos, dds_topic: &str, dds_type: &str, writer: EndpointId) {
+    pub fn on_remote_writer(&mut self, dds_topic: &str, dds_type: &str, writer: EndpointId) {
         for (i, ours) in mismatched(&self.inputs, dds_topic, dds_type) {
             if self.intake.mark_bad_writer(writer) {
-                self.conflict_line(i, steady, format!(
-                    "writer {writer:032x} on {dds_topic} announces type {dds_type}, sillage expects {ours}: its samples will be dropped"
-                ));
+                self.intake.report(i, Problem::TypeConflict, || {
+                    format!("writer {writer:032x} on {dds_topic} announces type {dds_type}, sillage expects {ours}: its samples will be dropped")
+                });
             }
         }
         let n = self.inputs.len();
         for (i, ours) in mismatched(&self.outputs, dds_topic, dds_type) {
             if self.intake.note_conflict(writer) {
-                self.conflict_line(n + i, steady, format!(
-                    "another writer ({writer:032x}) publishes {dds_type} on {dds_topic}, where sillage publishes {ours}"
-                ));
+                self.intake.report(n + i, Problem::TypeConflict, || {
+                    format!("another writer ({writer:032x}) publishes {dds_type} on {dds_topic}, where sillage publishes {ours}")
+                });
             }
         }
     }
 
     /// Discovery announced remote reader `reader` on `dds_topic` expecting `dds_type`.
-    pub fn on_remote_reader(&mut self, steady: Nanos, dds_topic: &str, dds_type: &str, reader: EndpointId) {
+    pub fn on_remote_reader(&mut self, dds_topic: &str, dds_type: &str, reader: EndpointId) {
         let n = self.inputs.len();
         for (i, ours) in mismatched(&self.outputs, dds_topic, dds_type) {
             if self.intake.note_conflict(reader) {
-                self.conflict_line(n + i, steady, format!(
-                    "a subscription ({reader:032x}) on {dds_topic} expects {dds_type}, but sillage publishes {ours} there: it will get nothing (check the type parameters)"
-                ));
+                self.intake.report(n + i, Problem::TypeConflict, || {
+                    format!("a subscription ({reader:032x}) on {dds_topic} expects {dds_type}, but sillage publishes {ours} there: it will get nothing (check the type parameters)")
+                });
             }
         }
     }

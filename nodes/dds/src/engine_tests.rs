@@ -1,14 +1,16 @@
 //! Engine tests without a network: a recording wire stands in for DDS.
 
 use super::*;
-use crate::args::Args;
+use crate::args::RunConfig;
 use crate::setup::{self, PlacedNode, Setup};
-use clap::Parser;
 use proptest::prelude::*;
 use sillage_core::executor::Placement;
-use sillage_core::msg::{Bool, Vector3, Vector3Stamped};
+use sillage_core::msg::{Bool, Header, Twist, Vector3, Vector3Stamped};
 use sillage_core::params::ParamError;
-use sillage_stack::NodeKind;
+use sillage_core::{NodeCore, Outbox, Port};
+use sillage_ros2::names::node_fqn;
+use sillage_ros2::NodeSpec;
+use std::sync::Arc;
 
 const MS: Nanos = 1_000_000;
 const S: Nanos = 1_000_000_000;
@@ -71,7 +73,7 @@ impl NodeCore for Relay {
         out.publish(1, Bool { data: self.ticks % 2 == 0 });
     }
     fn params_yaml(&self) -> serde_yaml::Value {
-        serde_yaml::Value::Null
+        serde_yaml::Value::Mapping(serde_yaml::Mapping::new())
     }
     fn set_params_yaml(&mut self, _v: &serde_yaml::Value) -> Result<(), ParamError> {
         Ok(())
@@ -95,25 +97,27 @@ impl NodeCore for Echo {
         out.publish(0, msg.clone());
     }
     fn params_yaml(&self) -> serde_yaml::Value {
-        serde_yaml::Value::Null
+        serde_yaml::Value::Mapping(serde_yaml::Mapping::new())
     }
     fn set_params_yaml(&mut self, _v: &serde_yaml::Value) -> Result<(), ParamError> {
         Ok(())
     }
 }
 
-fn placed(core: Box<dyn NodeCore>, ns: &str, remaps: &[(&str, &str)]) -> PlacedNode {
-    let name = core.name().to_string();
-    PlacedNode {
-        kind: NodeKind::Arbiter,
-        fqn: resolve_topic(&name, ns, &name),
-        core,
-        placement: Placement {
-            namespace: ns.into(),
-            name: None,
-            remaps: remaps.iter().map(|(a, b)| (a.to_string(), b.to_string())).collect(),
-        },
-    }
+fn placed(make: fn() -> Box<dyn NodeCore>, ns: &str, remaps: &[(&str, &str)]) -> PlacedNode {
+    let name = make().name().to_string();
+    let spec = NodeSpec::new(&name, Arc::new(move |_: &serde_yaml::Value, _: &str, _: &str| Ok(make())));
+    let placement = Placement {
+        namespace: ns.into(),
+        name: None,
+        remaps: remaps.iter().map(|(a, b)| (a.to_string(), b.to_string())).collect(),
+    };
+    let runtime = NodeRuntime::start(&spec, &node_fqn(&placement, &name), &[], "test").expect("starts");
+    PlacedNode { runtime, placement }
+}
+
+fn relay() -> Box<dyn NodeCore> {
+    Box::new(Relay { ticks: 0 })
 }
 
 fn engine(nodes: Vec<PlacedNode>, clock: ClockMode, max_rate: f64) -> Engine {
@@ -136,10 +140,7 @@ fn estop(on: bool) -> Vec<u8> {
 
 #[test]
 fn the_stack_is_wired_with_dds_names_and_the_declared_types() {
-    let cfg = Args::try_parse_from(["sillage_dds", "--namespace", "/r1", "--use-sim-time"])
-        .expect("parses")
-        .resolve(None)
-        .expect("valid");
+    let cfg = RunConfig::from_argv(["sillage_dds", "--namespace", "/r1", "--use-sim-time"], None).expect("valid");
     let e = Engine::new(setup::build(&cfg).expect("builds"), &EngineOptions::default()).expect("wires");
     assert_eq!(e.node_names(), vec!["/r1/event_encoder", "/r1/bearing_decoder", "/r1/plume_estimator", "/r1/arbiter"]);
     let chem = &e.inputs()[input(&e, "/r1/chem")];
@@ -159,8 +160,8 @@ fn the_stack_is_wired_with_dds_names_and_the_declared_types() {
 
 #[test]
 fn publications_reach_local_nodes_at_once_and_the_wire_once() {
-    let a = placed(Box::new(Relay { ticks: 0 }), "/r", &[]);
-    let b = placed(Box::new(Relay { ticks: 0 }), "/r", &[("wind", "wind2"), ("wind2", "wind3"), ("tick", "tick_b")]);
+    let a = placed(relay, "/r", &[]);
+    let b = placed(relay, "/r", &[("wind", "wind2"), ("wind2", "wind3"), ("tick", "tick_b")]);
     // Two nodes with one name would clash in ROS; here only topics matter.
     let mut e = engine(vec![a, b], ClockMode::System, 1000.0);
     let mut w = Recorder::default();
@@ -178,32 +179,39 @@ fn publications_reach_local_nodes_at_once_and_the_wire_once() {
 
 #[test]
 fn malformed_and_wrong_type_samples_are_dropped_counted_and_logged() {
-    let mut e = engine(vec![placed(Box::new(Relay { ticks: 0 }), "", &[])], ClockMode::System, 1000.0);
+    let mut e = engine(vec![placed(relay, "", &[])], ClockMode::System, 1000.0);
     let mut w = Recorder::default();
     let i = input(&e, "/wind");
     let good = wind(1.0);
-    // Truncated payload, unsupported encapsulation (XCDR2), no header at all.
+    // Truncated payload (52 - 9 = 43 bytes), unsupported encapsulation (XCDR2), no header.
     for bad in [&good[..good.len() - 9], &[0x00, 0x07, 0x00, 0x00, 1, 2, 3, 4][..], &[0x00][..]] {
         e.on_sample(S, 0, i, 1, bad, &mut w);
     }
     assert_eq!(e.stats().malformed, 3);
     assert!(w.sent.is_empty(), "nothing reaches the node");
     let log = e.drain_log();
-    assert_eq!(log.len(), 3);
-    assert!(log.iter().all(|l| l.starts_with("/wind: dropped a malformed sample")), "{log:?}");
-    assert!(log[1].contains("unsupported encapsulation"), "{}", log[1]);
+    assert_eq!(log.len(), 1, "logged at the 1st, 10th, 100th occurrence: {log:?}");
+    assert!(log[0].starts_with("/wind: dropped a malformed sample (43 bytes)"), "{log:?}");
+    assert!(log[0].contains("geometry_msgs/msg/Vector3Stamped"), "names the type: {log:?}");
+    let d = e.node(0).expect("node").stats().decode_errors.clone();
+    assert_eq!(d, vec![3, 0], "the hosted node counts them per input too");
+    for bad in [&[0x00, 0x07, 0x00, 0x00, 1, 2, 3, 4][..]; 7] {
+        e.on_sample(S, 0, i, 1, bad, &mut w);
+    }
+    let log = e.drain_log();
+    assert!(log.len() == 1 && log[0].contains("unsupported encapsulation") && log[0].contains("occurrence 10"), "{log:?}");
 
     // A writer announced as std_msgs/String on rt/wind: even decodable bytes are dropped.
-    e.on_remote_writer(0, "rt/wind", "std_msgs::msg::dds_::String_", 0xbad);
-    e.on_remote_writer(0, "rt/wind", "geometry_msgs::msg::dds_::Vector3Stamped_", 0x900d);
+    e.on_remote_writer("rt/wind", "std_msgs::msg::dds_::String_", 0xbad);
+    e.on_remote_writer("rt/wind", "geometry_msgs::msg::dds_::Vector3Stamped_", 0x900d);
     e.on_sample(S, 0, i, 0xbad, &good, &mut w);
     assert_eq!(e.stats().wrong_type, 1);
     assert!(w.sent.is_empty());
     e.on_sample(S, 0, i, 0x900d, &good, &mut w);
     assert_eq!(w.on(&e, "/wind2").len(), 1, "the well-typed writer still gets through");
     // A subscription expecting Twist on our Vector3Stamped output.
-    e.on_remote_reader(0, "rt/wind2", "geometry_msgs::msg::dds_::Twist_", 0xfeed);
-    e.on_remote_reader(0, "rt/wind2", "geometry_msgs::msg::dds_::Twist_", 0xfeed);
+    e.on_remote_reader("rt/wind2", "geometry_msgs::msg::dds_::Twist_", 0xfeed);
+    e.on_remote_reader("rt/wind2", "geometry_msgs::msg::dds_::Twist_", 0xfeed);
     assert_eq!(e.stats().type_conflicts, 2, "one writer, one reader, each counted once");
     let log = e.drain_log();
     assert!(log.iter().any(|l| l.contains("announces type std_msgs::msg::dds_::String_")), "{log:?}");
@@ -213,7 +221,7 @@ fn malformed_and_wrong_type_samples_are_dropped_counted_and_logged() {
 
 #[test]
 fn floods_are_limited_but_the_latched_e_stop_always_passes() {
-    let mut e = engine(vec![placed(Box::new(Relay { ticks: 0 }), "", &[])], ClockMode::System, 100.0);
+    let mut e = engine(vec![placed(relay, "", &[])], ClockMode::System, 100.0);
     let mut w = Recorder::default();
     let (iw, ie) = (input(&e, "/wind"), input(&e, "/e_stop"));
     for k in 0..1000 {
@@ -228,12 +236,12 @@ fn floods_are_limited_but_the_latched_e_stop_always_passes() {
 
 #[test]
 fn simulated_time_drives_timers_from_clock_messages() {
-    let mut e = engine(vec![placed(Box::new(Relay { ticks: 0 }), "", &[])], ClockMode::Simulated, 1000.0);
+    let mut e = engine(vec![placed(relay, "", &[])], ClockMode::Simulated, 1000.0);
     let mut w = Recorder::default();
     let ic = input(&e, "/clock");
     let clock = |t: Nanos| Msg::from(Clock { clock: sillage_core::msg::Time::from_nanos(t) }).encode().expect("encodes");
     for k in 0..50 {
-        e.poll_timers(1_700_000_000 * S + k * S, 0, &mut w);
+        e.poll_timers(1_700_000_000 * S + k * S, &mut w);
     }
     assert_eq!(e.wait_hint(0), None);
     assert!(w.sent.is_empty(), "no /clock yet: ROS time stands at zero");
@@ -263,16 +271,16 @@ fn simulated_time_drives_timers_from_clock_messages() {
 
 #[test]
 fn system_time_timers_and_wait_hints() {
-    let mut e = engine(vec![placed(Box::new(Relay { ticks: 0 }), "", &[])], ClockMode::System, 1000.0);
+    let mut e = engine(vec![placed(relay, "", &[])], ClockMode::System, 1000.0);
     let mut w = Recorder::default();
     let t0 = 1_700_000_000 * S;
     assert_eq!(e.wait_hint(t0), Some(100 * MS));
-    e.poll_timers(t0 + 99 * MS, 0, &mut w);
+    e.poll_timers(t0 + 99 * MS, &mut w);
     assert!(w.on(&e, "/tick").is_empty());
     assert_eq!(e.wait_hint(t0 + 99 * MS), Some(MS));
-    e.poll_timers(t0 + 100 * MS, 0, &mut w);
+    e.poll_timers(t0 + 100 * MS, &mut w);
     assert_eq!(w.on(&e, "/tick").len(), 1);
-    e.poll_timers(t0 + 1000 * MS, 0, &mut w);
+    e.poll_timers(t0 + 1000 * MS, &mut w);
     let d = w.on(&e, "/diagnostics");
     assert_eq!(d.len(), 1);
     let Msg::DiagnosticArray(d) = &d[0] else { panic!("type") };
@@ -283,13 +291,13 @@ fn system_time_timers_and_wait_hints() {
 
 #[test]
 fn diagnostics_warn_about_fresh_bad_input_and_publish_failures_are_counted() {
-    let mut e = engine(vec![placed(Box::new(Relay { ticks: 0 }), "", &[])], ClockMode::System, 1000.0);
+    let mut e = engine(vec![placed(relay, "", &[])], ClockMode::System, 1000.0);
     let mut w = Recorder::default();
     let i = input(&e, "/wind");
-    e.poll_timers(0, 0, &mut w);
+    e.poll_timers(0, &mut w);
     e.on_sample(0, 0, i, 1, &[0, 1, 0, 0, 7], &mut w);
-    e.poll_timers(S, 0, &mut w);
-    e.poll_timers(2 * S, 0, &mut w);
+    e.poll_timers(S, &mut w);
+    e.poll_timers(2 * S, &mut w);
     let d = w.on(&e, "/diagnostics");
     let status = |m: &Msg| {
         let Msg::DiagnosticArray(a) = m else { panic!("type") };
@@ -309,7 +317,7 @@ fn diagnostics_warn_about_fresh_bad_input_and_publish_failures_are_counted() {
 #[test]
 fn endless_cascades_between_nodes_are_cut_short() {
     let mut e = Engine::new(
-        Setup { nodes: vec![placed(Box::new(Echo), "", &[])], clock: ClockMode::System },
+        Setup { nodes: vec![placed(|| Box::new(Echo), "", &[])], clock: ClockMode::System },
         &EngineOptions { max_cascade: 50, ..EngineOptions::default() },
     )
     .expect("wires");
@@ -343,14 +351,29 @@ fn conflicting_port_types_and_bad_names_are_refused() {
         }
     }
     let err = |nodes| Engine::new(Setup { nodes, clock: ClockMode::System }, &EngineOptions::default()).err().expect("refused");
-    let e = err(vec![placed(Box::new(Clash), "", &[])]);
+    let e = err(vec![placed(|| Box::new(Clash), "", &[])]);
     assert!(matches!(e, DdsError::TypeConflict { ref topic, .. } if topic == "/x"), "{e}");
-    let e = err(vec![placed(Box::new(Relay { ticks: 0 }), "", &[("wind", "/odd-name")])]);
+    let e = err(vec![placed(relay, "", &[("wind", "/odd-name")])]);
     assert!(matches!(e, DdsError::BadTopicName { ref topic, .. } if topic == "/odd-name"), "{e}");
 }
 
+#[test]
+fn stopping_publishes_a_zero_command_on_the_velocity_output() {
+    let mut e = stack_engine();
+    let mut w = Recorder::default();
+    e.stop(1_700_000_000 * S, &mut w);
+    let cmds = w.on(&e, "/cmd_vel");
+    assert_eq!(cmds.len(), 1);
+    let twist = match &cmds[0] {
+        Msg::TwistStamped(t) => t.twist,
+        Msg::Twist(t) => *t,
+        other => panic!("{other:?}"),
+    };
+    assert_eq!(twist, Twist::default());
+}
+
 fn stack_engine() -> Engine {
-    let cfg = Args::try_parse_from(["sillage_dds"]).expect("parses").resolve(None).expect("valid");
+    let cfg = RunConfig::from_argv(["sillage_dds"], None).expect("valid");
     Engine::new(setup::build(&cfg).expect("builds"), &EngineOptions::default()).expect("wires")
 }
 
@@ -384,7 +407,7 @@ proptest! {
             };
             t += 10 * MS;
             e.on_sample(t, k as i64 * MS, i, 1, &data, &mut w);
-            e.poll_timers(t, k as i64 * MS, &mut w);
+            e.poll_timers(t, &mut w);
         }
         let s = e.stats().clone();
         prop_assert_eq!(s.samples, samples.len() as u64);

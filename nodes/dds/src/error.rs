@@ -24,9 +24,15 @@ pub enum DdsError {
     /// A parameter file could not be used.
     #[error(transparent)]
     Params(#[from] ParamFileError),
-    /// `use_sim_time` in a parameter file is not a boolean.
-    #[error("{file}: node key '{node}': 'use_sim_time' must be true or false, found {found}")]
-    UseSimTime { file: String, node: String, found: String },
+    /// `use_sim_time` is not a boolean.
+    #[error("node '{node}': 'use_sim_time' must be true or false, found {found}")]
+    UseSimTime { node: String, found: String },
+    /// The ROS arguments are not usable (rcl grammar).
+    #[error(transparent)]
+    RosArgs(#[from] sillage_ros2::names::ArgsError),
+    /// A node could not start (its parameters).
+    #[error(transparent)]
+    Runtime(#[from] sillage_ros2::runtime::RuntimeError),
     /// A command-line argument is wrong.
     #[error("argument '{arg}': {reason}")]
     BadArgument { arg: String, reason: String },

@@ -8,18 +8,15 @@
 //! - more than `max_rate` samples per second on one input is a flood: the excess is dropped
 //!   and counted (`flood_dropped`), except on latched inputs (the e-stop), which are never
 //!   dropped because a stop must always get through;
-//! - every kind of problem is logged with topic, type and reason, at most [`LOG_BURST`] times
-//!   per input and kind, then once per [`LOG_EVERY`] with the number of repeats suppressed.
+//! - every kind of problem is logged with topic, type and reason at its 1st, 10th, 100th, ...
+//!   occurrence per input and kind (the r2r executor's rule, `sillage_ros2::runtime::should_log`).
 //!
 //! Rates use a steady clock passed in by the caller (simulated time may stand still).
 
 use sillage_core::Nanos;
+use sillage_ros2::runtime::should_log;
 use std::collections::{HashMap, HashSet};
 
-/// Lines logged per (input, kind) before the limiter kicks in.
-pub const LOG_BURST: u32 = 3;
-/// Minimum interval between limited log lines of one (input, kind) [ns of steady time].
-pub const LOG_EVERY: Nanos = 10_000_000_000;
 /// Length of the flood-rate window [ns of steady time].
 pub const RATE_WINDOW: Nanos = 1_000_000_000;
 
@@ -67,8 +64,10 @@ pub enum Problem {
     WrongType,
     /// Discovery announced another type.
     TypeConflict,
-    /// Too many samples per second.
+    /// Too many samples per second (onset).
     Flood,
+    /// The summary of a flood window.
+    FloodEnd,
     /// The middleware refused a publication.
     Publish,
     /// A publication cascade was cut short.
@@ -84,13 +83,6 @@ struct Rate {
     dropped: u64,
 }
 
-#[derive(Debug, Clone, Copy, Default)]
-struct LogState {
-    lines: u32,
-    last: Nanos,
-    suppressed: u64,
-}
-
 /// The guard's state.
 #[derive(Debug, Default)]
 pub struct Intake {
@@ -98,7 +90,7 @@ pub struct Intake {
     rates: HashMap<usize, Rate>,
     bad_writers: HashSet<EndpointId>,
     seen_conflicts: HashSet<EndpointId>,
-    logs: HashMap<(usize, Problem), LogState>,
+    logs: HashMap<(usize, Problem), u64>,
     lines: Vec<String>,
     /// Counters.
     pub stats: IntakeStats,
@@ -111,21 +103,18 @@ impl Intake {
         Intake { max_per_window: per_window as u64, ..Intake::default() }
     }
 
-    /// Records a problem about `input` (an endpoint index, or any key) and logs `line` unless
-    /// the limiter holds it back.
-    pub fn report(&mut self, input: usize, kind: Problem, steady: Nanos, line: impl FnOnce() -> String) {
-        let s = self.logs.entry((input, kind)).or_default();
-        if s.lines < LOG_BURST || steady - s.last >= LOG_EVERY {
+    /// Records a problem about `input` (an endpoint index, or any key) and logs `line` at its
+    /// 1st, 10th, 100th, ... occurrence.
+    pub fn report(&mut self, input: usize, kind: Problem, line: impl FnOnce() -> String) {
+        let n = self.logs.entry((input, kind)).or_default();
+        *n += 1;
+        if should_log(*n) {
+            let count = *n;
             let mut text = line();
-            if s.suppressed > 0 {
-                text.push_str(&format!(" ({} similar since the last report)", s.suppressed));
+            if count > 1 {
+                text.push_str(&format!(" (occurrence {count}; logging 1, 10, 100, ...)"));
             }
-            s.lines = s.lines.saturating_add(1);
-            s.last = steady;
-            s.suppressed = 0;
             self.lines.push(text);
-        } else {
-            s.suppressed += 1;
         }
     }
 
@@ -169,7 +158,7 @@ impl Intake {
             let (count, dropped) = (r.count, r.dropped);
             *r = Rate { window_start: steady, count: 0, dropped: 0 };
             if count > max {
-                self.report(input, Problem::Flood, steady, || {
+                self.report(input, Problem::FloodEnd, || {
                     format!("flood on {topic}: {count} samples in one window of {RATE_WINDOW} ns (limit {max}), {dropped} dropped")
                 });
             }
@@ -178,7 +167,7 @@ impl Intake {
         r.count += 1;
         if r.count == max + 1 {
             let what = if droppable { "dropping the excess" } else { "latched input: nothing dropped" };
-            self.report(input, Problem::Flood, steady, || {
+            self.report(input, Problem::Flood, || {
                 format!("flood on {topic}: more than {max} samples within {RATE_WINDOW} ns; {what}")
             });
         }
@@ -223,16 +212,18 @@ mod tests {
     }
 
     #[test]
-    fn the_log_limiter_lets_a_burst_through_then_one_line_per_interval() {
+    fn repeated_problems_are_logged_at_1_10_100() {
         let mut g = Intake::new(1000.0);
-        for k in 0..100 {
-            g.report(3, Problem::Malformed, k * MS, || format!("bad {k}"));
+        for k in 1..=150 {
+            g.report(3, Problem::Malformed, || format!("bad {k}"));
         }
-        assert_eq!(g.drain_log(), vec!["bad 0", "bad 1", "bad 2"]);
-        g.report(3, Problem::Malformed, LOG_EVERY + 2 * MS, || "bad again".into());
-        assert_eq!(g.drain_log(), vec!["bad again (97 similar since the last report)"]);
-        g.report(4, Problem::Malformed, LOG_EVERY + 3 * MS, || "other input".into());
-        assert_eq!(g.drain_log().len(), 1, "limits are per input");
+        assert_eq!(
+            g.drain_log(),
+            vec!["bad 1", "bad 10 (occurrence 10; logging 1, 10, 100, ...)", "bad 100 (occurrence 100; logging 1, 10, 100, ...)"]
+        );
+        g.report(4, Problem::Malformed, || "other input".into());
+        g.report(3, Problem::Flood, || "other kind".into());
+        assert_eq!(g.drain_log().len(), 2, "counts are per input and kind");
     }
 
     #[test]

@@ -145,4 +145,25 @@ mod tests {
             assert_eq!(ros_type(&dds).as_deref(), Some(*ros));
         }
     }
+
+    /// The same mapping as ros2-client's (an independent implementation, 0.12.1), which names
+    /// the DDS types of every topic the executor creates.
+    #[cfg(feature = "dds")]
+    #[test]
+    fn agrees_with_ros2_client() {
+        use ros2_client::{MessageTypeName, Name, NodeName};
+        let node = NodeName::new("/robot1", "arbiter").expect("node name");
+        for fqn in ["/cmd_vel", "/robot1/chem", "/a/b/c_d", "/clock"] {
+            let name = Name::parse(fqn).expect("ros2-client parses it");
+            assert_eq!(name.to_dds_name("rt", &node, ""), dds_topic(fqn).expect("valid"), "{fqn}");
+        }
+        // A relative name in the node's namespace resolves the same way as ours.
+        let rel = Name::parse("odom").expect("relative");
+        let ours = sillage_core::executor::resolve_topic("odom", "/robot1", "arbiter");
+        assert_eq!(rel.to_dds_name("rt", &node, ""), dds_topic(&ours).expect("valid"));
+        for (ros, _) in DEFINITIONS {
+            let (pkg, t) = split_type(ros).expect("valid");
+            assert_eq!(MessageTypeName::new(pkg, t).dds_msg_type(), dds_type(ros).expect("valid"), "{ros}");
+        }
+    }
 }
