@@ -1,13 +1,13 @@
 //! From a strategy's motion intent to a velocity command in base_link (before the guard).
 //!
 //! Contract (REP 103: x forward, y left, angular.z > 0 turns left):
-//! - [`Motion::Stop`]: zero.
-//! - [`Motion::Heading`]: a differential drive turns with `wz = heading_gain * e` (e the
+//! - `Motion::Stop`: zero.
+//! - `Motion::Heading`: a differential drive turns with `wz = heading_gain * e` (e the
 //!   heading error, wrapped) and drives forward with `speed * cos(pi/2 * e / align_angle)`
 //!   while `|e| < align_angle`, else turns in place; it never uses `linear.y`. A holonomic
 //!   base translates straight along the heading (`linear.x`, `linear.y` from rotating the
 //!   odom direction into base_link) and turns toward `face` (or the heading).
-//! - [`Motion::Body`]: the given body twist (the guard still zeroes `linear.y` on a
+//! - `Motion::Body`: the given body twist (the guard still zeroes `linear.y` on a
 //!   differential drive).
 
 use crate::geometry::{wrap_angle, Pose2, Vec2};

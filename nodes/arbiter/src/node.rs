@@ -447,10 +447,11 @@ impl NodeCore for Arbiter {
 
     fn on_message(&mut self, now: Nanos, input: usize, msg: &Msg, out: &mut Outbox) {
         self.observe_clock(now);
-        let frames = self.params.frames.clone();
+        let frames = &self.params.frames;
         match (Input::from_index(input), msg) {
             (Some(Input::OdorBearing), Msg::OdorBearing(m)) => {
-                self.accept(now, Input::OdorBearing, &m.header.stamp, inputs::bearing(m, &frames), |s, b| s.on_bearing(b));
+                let parsed = inputs::bearing(m, frames);
+                self.accept(now, Input::OdorBearing, &m.header.stamp, parsed, |s, b| s.on_bearing(b));
             }
             (Some(Input::PlumeFeatures), Msg::PlumeFeatures(m)) => {
                 self.accept(now, Input::PlumeFeatures, &m.header.stamp, inputs::features(m), |s, f| {
@@ -467,13 +468,15 @@ impl NodeCore for Arbiter {
                 });
             }
             (Some(Input::Wind), Msg::Vector3Stamped(m)) => {
-                self.accept(now, Input::Wind, &m.header.stamp, inputs::wind(m, &frames), |s, w| {
+                let parsed = inputs::wind(m, frames);
+                self.accept(now, Input::Wind, &m.header.stamp, parsed, |s, w| {
                     let odom = s.odom;
                     s.wind.on_wind(now, w, odom.as_ref());
                 });
             }
             (Some(Input::Odom), Msg::Odometry(m)) => {
-                self.accept(now, Input::Odom, &m.header.stamp, inputs::odom(m, &frames), |s, o| s.odom = Some(o));
+                let parsed = inputs::odom(m, frames);
+                self.accept(now, Input::Odom, &m.header.stamp, parsed, |s, o| s.odom = Some(o));
             }
             (Some(Input::Scan), Msg::LaserScan(m)) => {
                 let parsed = inputs::scan_sector(m, &self.params.obstacle);

@@ -101,11 +101,13 @@ fn params() -> impl Strategy<Value = Params> {
         (any::<bool>(), any::<bool>(), prop::bool::weighted(0.7), 1.0f64..20.0),
     )
         .prop_map(|((s, holo, stamped, lin, rev, ang), (la, ld, aa, ad), (obst, fence, slow_watch, rate))| {
-            let mut p = Params::default();
-            p.strategy = [StrategyKind::CastSurge, StrategyKind::Zigzag, StrategyKind::Spiral, StrategyKind::Reactive][s];
-            p.base = if holo { BaseKind::Holonomic } else { BaseKind::DiffDrive };
-            p.cmd_vel_stamped = stamped;
-            p.rate = rate;
+            let mut p = Params {
+                strategy: [StrategyKind::CastSurge, StrategyKind::Zigzag, StrategyKind::Spiral, StrategyKind::Reactive][s],
+                base: if holo { BaseKind::Holonomic } else { BaseKind::DiffDrive },
+                cmd_vel_stamped: stamped,
+                rate,
+                ..Params::default()
+            };
             p.guard.max_linear = lin;
             p.guard.max_reverse = rev * lin;
             p.guard.max_angular = ang;

@@ -187,8 +187,7 @@ fn geofence_stop_keeps_the_robot_inside() {
 #[test]
 fn holonomic_casts_sideways_and_diff_drive_never_does() {
     for base in [BaseKind::DiffDrive, BaseKind::Holonomic] {
-        let mut p = Params::default();
-        p.base = base;
+        let p = Params { base, ..Params::default() };
         let plume: Plume = Box::new(|q, t| if t < s(3.0) { odor_everywhere()(q, t) } else { Odor { features: (0.0, 0.0, f64::NAN, f64::NAN), ..Default::default() } });
         let mut sim = Sim::new(p, Pose2::default(), WIND_TO_MINUS_X, plume);
         sim.run(s(15.0));
@@ -208,8 +207,7 @@ fn holonomic_casts_sideways_and_diff_drive_never_does() {
 #[test]
 fn cmd_vel_type_follows_the_parameter() {
     for stamped in [true, false] {
-        let mut p = Params::default();
-        p.cmd_vel_stamped = stamped;
+        let p = Params { cmd_vel_stamped: stamped, ..Params::default() };
         let mut ex = Executor::new();
         ex.add(Box::new(Arbiter::new(p).expect("valid"))).expect("wires");
         ex.start(0);
@@ -277,4 +275,58 @@ fn duplicated_and_reordered_stamps_are_dropped() {
     a.on_message(13, 3, &w(2_100_000_000), &mut out);
     let c = a.input_stats().inputs[3];
     assert_eq!((c.accepted, c.duplicates, c.out_of_order), (2, 1, 1));
+}
+
+#[test]
+fn e_stop_heartbeat_halts_when_silent() {
+    let mut p = Params::default();
+    p.watchdog.e_stop = 0.5;
+    let mut sim = Sim::new(p, Pose2::default(), WIND_TO_MINUS_X, odor_everywhere());
+    sim.run(s(1.0));
+    assert_eq!(sim.modes(), vec![Mode::Halted], "no heartbeat yet");
+    assert!(sim.last_state().reason.contains("e_stop never received"), "{}", sim.last_state().reason);
+    for k in 0..20 {
+        sim.inject("/e_stop", Bool { data: false }.into());
+        sim.run(s(1.0) + (k + 1) * s(0.1));
+    }
+    assert_eq!(sim.last_state().mode, Mode::Surging.code(), "heartbeat present: {:?}", sim.last_state());
+    sim.run(s(4.0));
+    assert_eq!(sim.last_state().mode, Mode::Halted.code());
+    assert!(sim.last_state().reason.contains("e_stop stale"), "{}", sim.last_state().reason);
+}
+
+#[test]
+fn a_backward_clock_jump_resets_inputs_but_keeps_the_latch() {
+    let mut a = Arbiter::new(Params::default()).expect("valid");
+    let mut out = sillage_core::Outbox::new();
+    let t0 = 10_000_000_000;
+    let feed = |a: &mut Arbiter, out: &mut sillage_core::Outbox, t: i64| {
+        a.on_message(t, 4, &odom_msg(t, &Pose2::default(), &sillage_arbiter::drive::Cmd::ZERO), out);
+        a.on_message(t, 3, &wind_msg(t, Vec2::new(-1.0, 0.0)), out);
+        a.on_message(t, 2, &events_msg(t, 1), out);
+        a.on_message(t, 1, &features_msg(t, (0.5, 0.2, f64::NAN, f64::NAN)), out);
+        a.on_message(t, 0, &bearing_msg(t, None), out);
+    };
+    feed(&mut a, &mut out, t0);
+    a.on_timer(t0, 0, &mut out);
+    assert_eq!(a.mode(), Mode::Surging);
+    a.on_message(t0, 5, &Bool { data: true }.into(), &mut out);
+    a.on_message(t0, 5, &Bool { data: false }.into(), &mut out);
+    // The clock restarts at 1 s (a looping bag): every input counts as stale again.
+    let t1 = 1_000_000_000;
+    a.on_timer(t1, 0, &mut out);
+    assert_eq!(a.input_stats().clock_jumps, 1);
+    assert!(a.e_stop_latched(), "a clock jump does not release the latch");
+    feed(&mut a, &mut out, t1);
+    a.on_timer(t1 + 100_000_000, 0, &mut out);
+    assert_eq!(a.mode(), Mode::Halted);
+    a.on_message(t1 + 100_000_000, 6, &Empty::default().into(), &mut out);
+    a.on_timer(t1 + 200_000_000, 0, &mut out);
+    assert_eq!(a.mode(), Mode::Surging, "{}", a.reason());
+    assert!(a.reason().starts_with("e-stop reset"), "{}", a.reason());
+    let mut d = Vec::new();
+    a.diagnostics(t1 + 200_000_000, &mut d);
+    let names: Vec<&str> = d.iter().map(|s| s.name.as_str()).collect();
+    assert_eq!(names, ["arbiter: mode", "arbiter: guard", "arbiter: watchdog", "arbiter: inputs"]);
+    assert!(d[0].message.starts_with("SURGING"), "{}", d[0].message);
 }

@@ -93,11 +93,8 @@ fn cast_after_loss_alternates_crosswind_with_growing_legs() {
     let mut extremes: Vec<f64> = Vec::new();
     for &y in &ys {
         match extremes.last_mut() {
-            Some(e) if e.signum() == y.signum() => {
-                if y.abs() > e.abs() {
-                    *e = y;
-                }
-            }
+            Some(e) if e.signum() == y.signum() && y.abs() > e.abs() => *e = y,
+            Some(e) if e.signum() == y.signum() => {}
             _ if y.abs() > 0.05 => extremes.push(y),
             _ => {}
         }
@@ -189,6 +186,11 @@ fn declare_at_the_source_publishes_the_estimate_and_stops() {
     assert!(after.iter().skip(5).all(|(_, c)| c.vx == 0.0 && c.wz == 0.0), "zero once stopped");
     let moved = sim.pose.position.distance(sim.pose_at(t_decl + s(1.0)).position);
     assert!(moved < 1e-9, "stays put after declaring");
+    // DECLARED is sticky; an e_stop_reset while not latched restarts the search.
+    sim.inject("/e_stop_reset", sillage_core::msg::Empty::default().into());
+    sim.run(s(31.0));
+    assert_eq!(sim.modes(), vec![Mode::Surging, Mode::Declared, Mode::Surging]);
+    assert!(sim.last_state().reason.starts_with("search restarted by e_stop_reset"), "{}", sim.last_state().reason);
 }
 
 #[test]
