@@ -1,6 +1,6 @@
-//! Lag estimation between two onset trains: binned event-train cross-correlation for the
-//! coarse lag, then one-to-one matched onsets with median/MAD outlier rejection for the fine
-//! lag and its spread.
+//! Lag estimation between two onset trains: binned event-train cross-correlation, smoothed,
+//! for the coarse lag, then one-to-one matched onsets with median/MAD outlier rejection for the
+//! fine lag and its spread.
 //!
 //! Contract:
 //! - Lags are `t_b - t_a` [s]: positive when train `a` leads.
@@ -8,8 +8,12 @@
 //!   bins do not move with the window). The correlogram is
 //!   `C[k] = sum_n A[n] B[n + k]` for `|k| <= k_max`, with `A`, `B` the onset counts per bin:
 //!   what `scipy.signal.correlate(B, A, mode="full")` with `correlation_lags(len(B), len(A))`
-//!   gives, computed sparsely from the onset pairs. The coarse lag is the first maximum in
-//!   ascending lag order (numpy's `argmax` tie rule).
+//!   gives, computed sparsely from the onset pairs. Onset lags scatter over many bins (timing
+//!   noise, meander), so the correlogram is smoothed with the triangular kernel
+//!   `K[j] = w + 1 - |j|`, `|j| <= w` (w: the matching tolerance in bins; zeros beyond
+//!   `|k| = k_max`), i.e. `scipy.signal.convolve(C, K, mode="same")`: its peak is the lag that
+//!   gathers the most onset pairs within the tolerance. The coarse lag is the first maximum of
+//!   the smoothed correlogram in ascending lag order (numpy's `argmax` tie rule).
 //! - Matching: each onset of `a` takes the nearest unused onset of `b` within `tolerance` of
 //!   `t_a + coarse`, in time order. Matched lags farther than `mad_k` robust standard
 //!   deviations (1.4826 MAD, at least one bin) from their median are outliers; the estimate is
@@ -26,6 +30,8 @@ pub struct LagSettings {
     pub bin: Nanos,
     /// Largest lag searched [bins]: the physically plausible window.
     pub k_max: i64,
+    /// Half-width of the triangular smoothing kernel [bins] (>= 0).
+    pub kernel: i64,
     /// Half-width of the matching window around the coarse lag [ns].
     pub tolerance: Nanos,
     /// Outlier threshold in robust standard deviations.
@@ -39,7 +45,7 @@ pub struct LagEstimate {
     pub lag: f64,
     /// Coarse lag from the correlogram peak [s] (a whole number of bins).
     pub coarse: f64,
-    /// Height of the correlogram peak [onset pairs].
+    /// Height of the smoothed correlogram peak [kernel-weighted onset pairs].
     pub peak: u32,
     /// Onset pairs matched around the coarse lag.
     pub matched: usize,
@@ -84,6 +90,24 @@ pub fn correlate(a: &[Nanos], b: &[Nanos], bin: Nanos, k_max: i64, counts: &mut 
                 break;
             }
             counts[(k + k_max) as usize] += 1;
+        }
+    }
+}
+
+/// Fills `out` with `counts` smoothed by the triangular kernel of half-width `w` [bins]
+/// (zero padding at the ends; the output has the length of `counts`).
+pub fn smooth(counts: &[u32], w: i64, out: &mut Vec<u32>) {
+    let w = w.max(0);
+    let n = counts.len() as i64;
+    out.clear();
+    out.resize(counts.len(), 0);
+    for (i, &c) in counts.iter().enumerate() {
+        if c == 0 {
+            continue;
+        }
+        let i = i as i64;
+        for k in (i - w).max(0)..=(i + w).min(n - 1) {
+            out[k as usize] += c * (w + 1 - (k - i).abs()) as u32;
         }
     }
 }
@@ -139,6 +163,7 @@ pub fn median_sorting(v: &mut [f64]) -> Option<f64> {
 #[derive(Debug, Clone, Default)]
 pub struct LagEstimator {
     counts: Vec<u32>,
+    smoothed: Vec<u32>,
     lags: Vec<f64>,
     devs: Vec<f64>,
 }
@@ -149,9 +174,14 @@ impl LagEstimator {
         LagEstimator::default()
     }
 
-    /// The correlogram of the last [`LagEstimator::estimate`] call.
+    /// The correlogram of the last [`LagEstimator::estimate`] call (index `k + k_max`).
     pub fn counts(&self) -> &[u32] {
         &self.counts
+    }
+
+    /// The smoothed correlogram of the last [`LagEstimator::estimate`] call.
+    pub fn smoothed(&self) -> &[u32] {
+        &self.smoothed
     }
 
     /// Estimates the lag `t_b - t_a` of the sorted onset trains `a`, `b` [ns]; `None` when no
@@ -159,7 +189,8 @@ impl LagEstimator {
     pub fn estimate(&mut self, a: &[Nanos], b: &[Nanos], s: &LagSettings) -> Option<LagEstimate> {
         let bin = s.bin.max(1);
         correlate(a, b, bin, s.k_max, &mut self.counts);
-        let (k, peak_count) = peak(&self.counts, s.k_max.max(0))?;
+        smooth(&self.counts, s.kernel, &mut self.smoothed);
+        let (k, peak_count) = peak(&self.smoothed, s.k_max.max(0))?;
         let center = k * bin;
         self.lags.clear();
         match_onsets(a, b, center, s.tolerance.max(0), &mut self.lags);
@@ -205,6 +236,9 @@ mod tests {
         assert_eq!(peak(&c, 3), Some((2, 2)));
         assert_eq!(peak(&[0, 0, 0], 1), None);
         assert_eq!(peak(&[0, 3, 0, 3, 1], 2), Some((-1, 3)), "first maximum wins ties");
+        let mut s = Vec::new();
+        smooth(&[0, 1, 0, 0, 2, 0, 0], 2, &mut s);
+        assert_eq!(s, vec![2, 3, 4, 5, 6, 4, 2]);
     }
 
     #[test]
@@ -213,7 +247,7 @@ mod tests {
         let a: Vec<Nanos> = (0..10).map(|k| k * 700 * MS).collect();
         let mut b: Vec<Nanos> = a.iter().enumerate().map(|(k, t)| t + 120 * MS + (k as i64 % 3 - 1) * 2 * MS).collect();
         b[4] = a[4] + 160 * MS;
-        let s = LagSettings { bin: 5 * MS, k_max: 60, tolerance: 60 * MS, mad_k: 3.0 };
+        let s = LagSettings { bin: 5 * MS, k_max: 60, kernel: 12, tolerance: 60 * MS, mad_k: 3.0 };
         let e = LagEstimator::new().estimate(&a, &b, &s).expect("estimate");
         assert_eq!(e.matched, 10);
         assert_eq!(e.inliers, 9, "{e:?}");
@@ -224,7 +258,7 @@ mod tests {
 
     #[test]
     fn nothing_in_the_window_gives_none() {
-        let s = LagSettings { bin: 5 * MS, k_max: 10, tolerance: 20 * MS, mad_k: 3.0 };
+        let s = LagSettings { bin: 5 * MS, k_max: 10, kernel: 4, tolerance: 20 * MS, mad_k: 3.0 };
         assert_eq!(LagEstimator::new().estimate(&[0], &[SECOND_NS], &s), None);
         assert_eq!(LagEstimator::new().estimate(&[], &[0], &s), None);
     }
@@ -261,7 +295,7 @@ mod tests {
         fn a_pure_shift_is_recovered_exactly(shift in -200i64..200, n in 2usize..20) {
             let a: Vec<Nanos> = (0..n as i64).map(|k| k * 997 * MS + 13 * MS).collect();
             let b: Vec<Nanos> = a.iter().map(|t| t + shift * MS).collect();
-            let s = LagSettings { bin: 5 * MS, k_max: 50, tolerance: 30 * MS, mad_k: 3.0 };
+            let s = LagSettings { bin: 5 * MS, k_max: 50, kernel: 6, tolerance: 30 * MS, mad_k: 3.0 };
             let e = LagEstimator::new().estimate(&a, &b, &s).expect("in window");
             prop_assert!((e.lag - shift as f64 * 1e-3).abs() < 1e-9);
             prop_assert_eq!(e.inliers, n);

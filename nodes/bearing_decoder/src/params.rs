@@ -96,8 +96,9 @@ pub struct TimingParams {
     pub min_matches: u32,
     /// Matched onsets at which their confidence factor is 0.5 (> 0).
     pub confidence_matches: f64,
-    /// Lag spread at which the consistency factor is 0.5 [s] (> 0).
-    pub lag_spread: f64,
+    /// Bearing spread implied by the inlier lag spread (sensitivity U d lag / (d cos theta))
+    /// at which the consistency factor is 0.5 [rad] (> 0).
+    pub bearing_spread: f64,
     /// Most onsets kept per sensor (>= 2).
     pub max_onsets: u32,
 }
@@ -192,11 +193,11 @@ impl Default for TimingParams {
             max_lag: 1.0,
             lag_margin: 0.25,
             onset_gap: 0.5,
-            match_tolerance: 0.05,
+            match_tolerance: 0.1,
             outlier_mad: 3.0,
             min_matches: 3,
             confidence_matches: 5.0,
-            lag_spread: 0.03,
+            bearing_spread: 5f64.to_radians(),
             max_onsets: 256,
         }
     }
@@ -282,7 +283,7 @@ impl Params {
             mad_k: t.outlier_mad,
             min_matches: t.min_matches as usize,
             confidence_matches: t.confidence_matches,
-            lag_spread: t.lag_spread,
+            bearing_spread: t.bearing_spread,
             min_speed: self.wind.min_speed,
             min_angle: self.front_back.min_angle,
             unresolved_scale: self.front_back.unresolved_scale,
@@ -321,7 +322,7 @@ impl NodeParams for Params {
         positive(t.outlier_mad, "timing.outlier_mad", "")?;
         ensure(t.min_matches >= 1, "timing.min_matches", "must be >= 1")?;
         positive(t.confidence_matches, "timing.confidence_matches", "")?;
-        positive(t.lag_spread, "timing.lag_spread", "[s]")?;
+        positive(t.bearing_spread, "timing.bearing_spread", "[rad]")?;
         ensure(t.max_onsets >= 2, "timing.max_onsets", "must be >= 2")?;
         let f = &self.front_back;
         ensure(

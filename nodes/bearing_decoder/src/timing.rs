@@ -10,8 +10,11 @@
 //!
 //! Confidence (0..1) is the product of
 //! - matches `n / (n + confidence_matches)` (n: inlier onset pairs; mean per pair for N sensors),
-//! - consistency `1 / (1 + (sigma / lag_spread)^2)` (sigma: inlier lag spread, pooled with the
-//!   fit residual for N sensors),
+//! - consistency `1 / (1 + (sigma_theta / bearing_spread)^2)`, with sigma_theta the bearing
+//!   spread the inlier lag spread implies: for two sensors `U sigma_lag / (d cos theta)`
+//!   (shared/references.md, the plane-wave sensitivity; cos theta floored at 0.2 near the
+//!   clamp), for N sensors `c sigma / r` (sigma: lag spread pooled with the fit residual, c: the
+//!   fitted speed, r: the rms pair baseline),
 //! - the inlier fraction,
 //! - a clamp factor falling linearly from 1 at `|U lag / d| = 1` to 0 at `1 + lag_margin`,
 //! - `unresolved_scale` when the front/back choice is a guess.
@@ -41,8 +44,8 @@ pub struct TimingSettings {
     pub min_matches: usize,
     /// Inlier pairs at which the match factor is 0.5.
     pub confidence_matches: f64,
-    /// Lag spread at which the consistency factor is 0.5 [s].
-    pub lag_spread: f64,
+    /// Implied bearing spread at which the consistency factor is 0.5 [rad].
+    pub bearing_spread: f64,
     /// Air speeds below this are still air [m/s].
     pub min_speed: f64,
     /// Smallest angle between upwind and the sensor axis that settles front/back [rad].
@@ -137,13 +140,20 @@ impl TimingDecoder {
             }
             None => s.max_lag,
         };
-        let bin = s.bin.max(1) as f64 * 1e-9;
-        LagSettings { bin: s.bin.max(1), k_max: (bound / bin).ceil() as i64, tolerance: s.tolerance, mad_k: s.mad_k }
+        let bin = s.bin.max(1);
+        LagSettings {
+            bin,
+            k_max: (bound / (bin as f64 * 1e-9)).ceil() as i64,
+            kernel: s.tolerance / bin,
+            tolerance: s.tolerance,
+            mad_k: s.mad_k,
+        }
     }
 
-    fn confidence(&self, matches: f64, sigma: f64, inlier_fraction: f64) -> f64 {
+    /// Confidence from the matches, the implied bearing spread [rad] and the inlier fraction.
+    fn confidence(&self, matches: f64, sigma_theta: f64, inlier_fraction: f64) -> f64 {
         let s = &self.settings;
-        matches / (matches + s.confidence_matches) * factor(sigma, s.lag_spread) * inlier_fraction
+        matches / (matches + s.confidence_matches) * factor(sigma_theta, s.bearing_spread) * inlier_fraction
     }
 
     /// The timing bearing from the onset trains (one per sensor of `array`, pruned to the
@@ -174,7 +184,10 @@ impl TimingDecoder {
         let excess = (sol.ratio.abs() - 1.0).max(0.0);
         let clamp_factor = (1.0 - excess / s.lag_margin.max(1e-6)).clamp(0.0, 1.0);
         let unresolved = if resolution.is_unresolved() { s.unresolved_scale } else { 1.0 };
-        let confidence = self.confidence(e.inliers as f64, e.spread, e.inlier_fraction()) * clamp_factor * unresolved;
+        let g = (baseline - air.velocity * e.lag).norm();
+        let cos_theta = (1.0 - sol.ratio.clamp(-1.0, 1.0).powi(2)).sqrt().max(0.2);
+        let sigma_theta = speed * e.spread / (g * cos_theta);
+        let confidence = self.confidence(e.inliers as f64, sigma_theta, e.inlier_fraction()) * clamp_factor * unresolved;
         Ok(TimingCue {
             bearing,
             lag: e.lag,
@@ -219,7 +232,8 @@ impl TimingDecoder {
         let pooled = (var_sum / inliers as f64).sqrt();
         let sigma = (pooled * pooled + fit.residual * fit.residual).sqrt();
         let per_pair = inliers as f64 / self.rows.len() as f64;
-        let confidence = self.confidence(per_pair, sigma, inliers as f64 / matched.max(1) as f64);
+        let r = (self.rows.iter().map(|r| r.offset.norm_squared()).sum::<f64>() / self.rows.len() as f64).sqrt();
+        let confidence = self.confidence(per_pair, sigma * fit.speed / r, inliers as f64 / matched.max(1) as f64);
         let first = &array.pairs()[0];
         Ok(TimingCue {
             bearing: fit.bearing,
@@ -252,7 +266,7 @@ mod tests {
             mad_k: 3.0,
             min_matches: 3,
             confidence_matches: 5.0,
-            lag_spread: 0.03,
+            bearing_spread: 5.0 * DEG,
             min_speed: 0.05,
             min_angle: 15.0 * DEG,
             unresolved_scale: 0.5,
