@@ -12,6 +12,9 @@
 //!
 //! [`Msg`]: sillage_core::Msg
 
+// Errors carry the file, topic and offset by design (a few strings); they are rare.
+#![allow(clippy::result_large_err)]
+
 pub mod error;
 pub mod info;
 pub mod json;

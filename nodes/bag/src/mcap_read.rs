@@ -283,8 +283,8 @@ impl<R: Read + Seek> FileCtx<R> {
                     Ok(mcap::records::Record::Schema { header, data }) => {
                         schemas.insert(header.id, (header.name, header.encoding, String::from_utf8_lossy(&data).into_owned()));
                     }
-                    Ok(mcap::records::Record::Channel(c)) => {
-                        if !self.channels.contains_key(&c.id) {
+                    Ok(mcap::records::Record::Channel(c)) if !self.channels.contains_key(&c.id) => {
+                        {
                             let (type_name, schema_encoding, schema) = schemas.get(&c.schema_id).cloned().unwrap_or_default();
                             let qos = c.metadata.get("offered_qos_profiles").cloned().unwrap_or_default();
                             self.channels.insert(

@@ -7,6 +7,8 @@
 //! metadata.yaml), `summary.json` and `summary.txt`, and `plots/`. A replay stopped by a bad
 //! record still closes the output bag and writes the summary, which says why it stopped.
 
+#![allow(clippy::result_large_err)] // sillage_bag's errors carry file, topic and offset
+
 mod graph;
 mod plots;
 mod summary;

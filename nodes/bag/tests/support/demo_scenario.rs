@@ -16,6 +16,8 @@
 //!
 //! All values are made up; the generator is seeded and deterministic.
 
+#![allow(clippy::result_large_err)] // sillage_bag errors name file, topic and offset
+
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, Exp, Normal};

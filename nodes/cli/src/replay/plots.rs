@@ -153,10 +153,8 @@ impl PlotData {
                 self.intermittency.add(b, m.intermittency);
                 self.distance.add(b, m.distance);
             }
-            Msg::SearchState(s) => {
-                if self.modes.last().is_none_or(|(_, m)| *m != s.mode) && self.modes.len() < 100_000 {
-                    self.modes.push((sillage_core::time::secs(r.stamp - self.t0), s.mode));
-                }
+            Msg::SearchState(s) if self.modes.last().is_none_or(|(_, m)| *m != s.mode) && self.modes.len() < 100_000 => {
+                self.modes.push((sillage_core::time::secs(r.stamp - self.t0), s.mode));
             }
             Msg::Odometry(o) => {
                 let p = (o.pose.pose.position.x, o.pose.pose.position.y);
@@ -203,7 +201,10 @@ fn empty<DB: DrawingBackend>(area: &Area<DB>, title: &str, why: &str) -> Result<
     Ok(())
 }
 
-fn line_chart<DB: DrawingBackend>(area: &Area<DB>, title: &str, y_desc: &str, span: f64, series: &[(&str, Vec<(f64, f64)>, RGBColor)]) -> Result<()> {
+/// A named, coloured line.
+type Line<'a> = (&'a str, Vec<(f64, f64)>, RGBColor);
+
+fn line_chart<DB: DrawingBackend>(area: &Area<DB>, title: &str, y_desc: &str, span: f64, series: &[Line<'_>]) -> Result<()> {
     let all: Vec<f64> = series.iter().flat_map(|(_, p, _)| p.iter().map(|q| q.1)).collect();
     if all.is_empty() {
         return empty(area, title, "no finite values (none published, or NaN)");
