@@ -183,7 +183,9 @@ pub fn odom(m: &Odometry, frames: &Frames) -> Result<OdomObs, ArbiterError> {
     }
     let vx = finite(t, "twist.twist.linear.x", m.twist.twist.linear.x)?;
     let vy = finite(t, "twist.twist.linear.y", m.twist.twist.linear.y)?;
-    Ok(OdomObs { pose: Pose2 { position: Vec2::new(x, y), yaw: q.yaw() }, velocity: Vec2::new(vx, vy) })
+    // Normalised first: the yaw formula assumes a unit quaternion.
+    let unit = Quaternion { x: q.x / norm, y: q.y / norm, z: q.z / norm, w: q.w / norm };
+    Ok(OdomObs { pose: Pose2 { position: Vec2::new(x, y), yaw: unit.yaw() }, velocity: Vec2::new(vx, vy) })
 }
 
 /// Checks a bearing.
@@ -382,6 +384,10 @@ mod tests {
         assert!(wind(&w, &f).expect_err("frame").to_string().contains("'map'"));
         let o = Odometry { pose: PoseWithCovariance { pose: Pose { orientation: Quaternion { w: 0.0, ..Default::default() }, ..Default::default() }, ..Default::default() }, ..Default::default() };
         assert!(odom(&o, &f).expect_err("zero quaternion").to_string().contains("orientation"));
+        let mut o = Odometry::default();
+        let q = Quaternion::from_yaw(1.0);
+        o.pose.pose.orientation = Quaternion { x: q.x * 1.05, y: q.y * 1.05, z: q.z * 1.05, w: q.w * 1.05 };
+        assert!((odom(&o, &f).expect("5 % off is accepted").pose.yaw - 1.0).abs() < 1e-12);
         let pf = PlumeFeatures { intermittency: 1.5, ..Default::default() };
         assert!(features(&pf).expect_err("range").to_string().contains("intermittency"));
         let ok = PlumeFeatures { bout_rate: 1.0, distance: f64::NAN, distance_sigma: f64::NAN, ..Default::default() };
