@@ -90,7 +90,7 @@ impl Channel {
             self.last_valid = None;
         }
         let interpolate = match self.last_valid {
-            Some(last) if t - last > self.gap => {
+            Some(last) if t.saturating_sub(last) > self.gap => {
                 self.counts.gaps += 1;
                 false
             }

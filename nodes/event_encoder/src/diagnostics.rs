@@ -41,12 +41,12 @@ fn input_status(e: &EventEncoder, now: Nanos) -> DiagnosticStatus {
             Slot::Full => Some(format!("[{i}] no room")),
         })
         .collect();
-    let recent_error = e.last_error.as_ref().filter(|(t, _)| now - *t <= stale);
+    let recent_error = e.last_error.as_ref().filter(|(t, _)| now.saturating_sub(*t) <= stale);
     let (level, message) = match (e.last_stamp, recent_error) {
         (None, None) => (DiagnosticStatus::STALE, "no sample yet".to_string()),
         (_, Some((_, err))) => (DiagnosticStatus::WARN, err.to_string()),
         (Some(_), None) if !problems.is_empty() => (DiagnosticStatus::WARN, format!("channel names unusable: {}", problems.join(", "))),
-        (Some(t), None) if now - t > stale => (DiagnosticStatus::STALE, format!("no sample for {:.1} s", secs(now - t))),
+        (Some(t), None) if now.saturating_sub(t) > stale => (DiagnosticStatus::STALE, format!("no sample for {:.1} s", secs(now.saturating_sub(t)))),
         _ => (DiagnosticStatus::OK, "ok".to_string()),
     };
     let mut values = vec![
@@ -85,7 +85,7 @@ fn channel_status(e: &EventEncoder, t: &Tracked, now: Nanos) -> DiagnosticStatus
     let (level, message) = match (t.index, t.last_seen) {
         (None, _) => (DiagnosticStatus::STALE, "stale: not in the current channel set".to_string()),
         (_, None) => (DiagnosticStatus::STALE, "stale: no sample yet".to_string()),
-        (_, Some(seen)) if now - seen > stale => (DiagnosticStatus::STALE, format!("stale: no sample for {:.1} s", secs(now - seen))),
+        (_, Some(seen)) if now.saturating_sub(seen) > stale => (DiagnosticStatus::STALE, format!("stale: no sample for {:.1} s", secs(now.saturating_sub(seen)))),
         _ if fault_now.is_some() => {
             let f = fault_now.map(|(_, f)| f.to_string()).unwrap_or_default();
             (DiagnosticStatus::WARN, format!("rejecting values: {f}"))

@@ -132,7 +132,7 @@ impl EventEncoder {
         }
         if let Some(last) = self.last_stamp {
             if t <= last {
-                if last - t > sillage_core::time::nanos(self.params.backward_reset) {
+                if last.saturating_sub(t) > sillage_core::time::nanos(self.params.backward_reset) {
                     self.layout.reset_all();
                     self.counts.backward_resets += 1;
                     self.warnings.warn(now, WarnKind::BackwardReset, || {

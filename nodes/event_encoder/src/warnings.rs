@@ -59,7 +59,7 @@ impl Warnings {
     pub fn warn(&mut self, now: Nanos, kind: WarnKind, text: impl FnOnce() -> String) {
         let i = KINDS.iter().position(|k| *k == kind).unwrap_or(0);
         if let Some(last) = self.last[i] {
-            if now >= last && now - last < self.interval {
+            if now >= last && now.saturating_sub(last) < self.interval {
                 self.held[i] += 1;
                 self.suppressed += 1;
                 return;

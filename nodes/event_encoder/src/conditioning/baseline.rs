@@ -51,7 +51,7 @@ impl Baseline {
             None => y,
             Some(b) if frozen => b,
             Some(b) => {
-                let dt = t - self.last_t;
+                let dt = t.saturating_sub(self.last_t);
                 let a = if y > b { self.rise.alpha(dt) } else { self.fall.alpha(dt) };
                 b + (y - b) * a
             }

@@ -63,12 +63,12 @@ impl Health {
                 self.stuck_since = t;
             }
         }
-        self.dead = self.stuck_ns > 0 && t - self.stuck_since >= self.stuck_ns;
+        self.dead = self.stuck_ns > 0 && t.saturating_sub(self.stuck_since) >= self.stuck_ns;
     }
 
     /// Seconds the reading has been unchanged, at the last update time `t` [ns].
     pub fn stuck_for(&self, t: Nanos) -> f64 {
-        if self.stuck_ref.is_some() { sillage_core::time::secs(t - self.stuck_since) } else { 0.0 }
+        if self.stuck_ref.is_some() { sillage_core::time::secs(t.saturating_sub(self.stuck_since)) } else { 0.0 }
     }
 }
 

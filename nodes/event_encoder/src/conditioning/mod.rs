@@ -184,7 +184,7 @@ impl R0 {
             return self.fixed;
         }
         let start = *self.start.get_or_insert(t);
-        self.learning = t - start < self.window;
+        self.learning = t.saturating_sub(start) < self.window;
         if self.learning || self.n == 0 {
             self.sum += r;
             self.n += 1;

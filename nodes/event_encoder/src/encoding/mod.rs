@@ -325,7 +325,7 @@ impl LevelEncoder {
             return;
         }
         if let Some(last) = self.last_event {
-            if c.stamp - last < self.refractory {
+            if c.stamp.saturating_sub(last) < self.refractory {
                 self.counts.suppressed += 1;
                 return;
             }
@@ -347,7 +347,7 @@ fn interpolate_stamp(t0: Nanos, x0: f64, t1: Nanos, x1: f64, thr: f64) -> Nanos 
         return t1;
     }
     let f = ((thr - x0) / (x1 - x0)).clamp(0.0, 1.0);
-    t0 + ((t1 - t0) as f64 * f).round() as Nanos
+    t0.saturating_add((t1.saturating_sub(t0) as f64 * f).round() as Nanos)
 }
 
 #[cfg(test)]

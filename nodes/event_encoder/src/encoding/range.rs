@@ -38,7 +38,7 @@ impl Range {
                 self.lo = x;
             }
             Some(t0) => {
-                let a = self.decay.alpha(t - t0);
+                let a = self.decay.alpha(t.saturating_sub(t0));
                 self.hi = x.max(self.hi + (x - self.hi) * a);
                 self.lo = x.min(self.lo + (x - self.lo) * a);
             }

@@ -142,6 +142,47 @@ fn random_stretches_respect_the_counting_law() {
 }
 
 #[test]
+fn random_walk_never_beats_the_variation_bound() {
+    // A random walk of uniform steps in [-0.03, 0.03] (seeded). Send-on-delta: N <= TV/delta
+    // (TV = sum of |steps|). Level-crossing needs the signal to move delta between two events
+    // in one direction and hysteresis x delta to reverse, so N <= TV / (min(h, 1) delta); with
+    // h = 0 it chatters (no such bound) but still counts exactly sum |d floor(x / delta)|.
+    let delta = 0.1;
+    for seed in 100..110 {
+        let mut rng = ChaCha8Rng::seed_from_u64(seed);
+        let mut x = 0.0f64;
+        let mut tv = 0.0;
+        let samples: Vec<(Nanos, f64)> = (0..20_000)
+            .map(|k| {
+                if k > 0 {
+                    let dx: f64 = rng.random_range(-0.03..0.03);
+                    x += dx;
+                    tv += dx.abs();
+                }
+                (k * 10 * MS, x)
+            })
+            .collect();
+        let mut sod = enc(|p| p.delta = delta);
+        let n = run(&mut sod, samples.iter().copied()).len() as f64;
+        assert!(n <= tv / delta && n > 0.1 * tv / delta, "seed {seed}: N = {n}, TV/delta = {}", tv / delta);
+        let h = 0.5;
+        let mut lc = enc(|p| {
+            p.mode = Mode::LevelCrossing;
+            p.delta = delta;
+            p.hysteresis = h;
+        });
+        let n = run(&mut lc, samples.iter().copied()).len() as f64;
+        assert!(n <= tv / (h * delta), "seed {seed}: N = {n} > TV/(h delta) = {}", tv / (h * delta));
+        let mut chatter = enc(|p| {
+            p.mode = Mode::LevelCrossing;
+            p.delta = delta;
+        });
+        let want: f64 = samples.windows(2).map(|w| ((w[1].1 / delta).floor() - (w[0].1 / delta).floor()).abs()).sum();
+        assert_eq!(run(&mut chatter, samples.iter().copied()).len() as f64, want, "seed {seed}");
+    }
+}
+
+#[test]
 fn level_crossing_counts_grid_levels_between_samples() {
     // Without hysteresis the level-crossing count is sum |floor(x_i / delta) - floor(x_{i-1} / delta)|.
     let delta = 0.1;
