@@ -9,6 +9,9 @@
 //!   unless halted or declared, turns its motion into a command ([`crate::drive`]), passes it
 //!   through the guard ([`crate::guard`]) and publishes it; `search_state` goes out on every
 //!   transition and at least every `state_period`; `source_estimate` once, on declaration;
+//! - `search_state`: header in `frames.odom`; `heading_target` is the strategy's odom heading,
+//!   NaN when the robot is not steering to one (stopped, body-twist strategies);
+//!   `contact_age` is NaN before the first contact;
 //! - the node's clock jumping back (a restarted simulation or bag loop) resets the
 //!   watchdogs, stamp orders, wind, contact, declaration evidence and the strategy; the e-stop
 //!   latch and a declaration stay.
@@ -517,6 +520,9 @@ impl NodeCore for Arbiter {
         }
         if next.cmd_vel_stamped != self.params.cmd_vel_stamped {
             return Err(fixed("cmd_vel_stamped"));
+        }
+        if next.base != self.params.base {
+            return Err(fixed("base"));
         }
         self.reconfigure(next);
         Ok(())

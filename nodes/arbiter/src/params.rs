@@ -2,8 +2,9 @@
 //! map; nested maps are dotted names such as `guard.max_linear`), with documented defaults and
 //! units, and [`NodeParams::validate`] refusing bad values with the dotted key named.
 //!
-//! Start-up-only keys: `rate` and `cmd_vel_stamped` fix the timer and the output port type, so a
-//! run-time change of them is refused (see [`crate::Arbiter`]).
+//! Start-up-only keys: `rate` and `cmd_vel_stamped` fix the timer and the output port type, and
+//! `base` must not switch under a moving robot (a holonomic base's `linear.y` would be cut
+//! without a ramp), so a run-time change of them is refused (see [`crate::Arbiter`]).
 
 use crate::geometry::Polygon;
 use serde::{Deserialize, Serialize};
@@ -412,7 +413,7 @@ pub struct Params {
     pub rate: f64,
     /// Behaviour strategy: `cast_surge`, `zigzag`, `spiral` or `reactive`.
     pub strategy: StrategyKind,
-    /// Base kind: `diff_drive` or `holonomic`.
+    /// Base kind: `diff_drive` or `holonomic` (start-up only).
     pub base: BaseKind,
     /// Publish `cmd_vel` as TwistStamped (true) or Twist (false) (start-up only).
     pub cmd_vel_stamped: bool,

@@ -83,6 +83,8 @@ fn run_time_changes_keep_start_up_keys() {
     assert!(matches!(&e, ParamError::Invalid { key, .. } if key == "rate"), "{e}");
     let e = a.set_params_yaml(&set_key(&empty, "cmd_vel_stamped", Value::from(false))).expect_err("start-up only");
     assert_eq!(e.key(), "cmd_vel_stamped");
+    let e = a.set_params_yaml(&set_key(&empty, "base", Value::from("holonomic"))).expect_err("start-up only");
+    assert_eq!(e.key(), "base");
     let e = a.set_params_yaml(&set_key(&empty, "guard.max_linear", Value::from(-1.0))).expect_err("range");
     assert_eq!(e.key(), "guard.max_linear");
     assert_eq!(a.params(), &Params::default(), "old values kept on error");

@@ -18,7 +18,8 @@
 //!    declared; return the phase, a reason and a [`Motion`]) and `reset` (forget the search).
 //!    Build on [`surge_heading`], [`Homing`] and [`Caster`] if they fit.
 //! 2. Hand it to the node: `Arbiter::with_strategy(params, Box::new(MyStrategy::new()))`. The
-//!    `strategy` parameter then only names the built-in one a run-time change would switch to.
+//!    `strategy` parameter (and the built-ins' sections) are then ignored, also when changed
+//!    at run time: your strategy stays.
 //! 3. To make it selectable by name, add a [`crate::params::StrategyKind`] variant and a line in
 //!    [`build`].
 //!
