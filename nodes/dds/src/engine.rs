@@ -296,7 +296,11 @@ impl Engine {
             });
             return;
         }
-        if !self.intake.admit(input, droppable, steady, &topic) {
+        let label = match owner {
+            Owner::Node { node, .. } => format!("{topic} ({})", self.slots[node].rt.fqn()),
+            _ => topic.clone(),
+        };
+        if !self.intake.admit(input, droppable, steady, &label) {
             return;
         }
         match owner {
