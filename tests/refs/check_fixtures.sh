@@ -19,6 +19,8 @@ FIXTURES=(
     "tests/refs/world_refs.py nodes/world/tests/fixtures/world_refs.json"
     "tests/refs/plume_filters.py tests/fixtures/plume/plume_filters.json"
     "tests/refs/bag_make_fixtures.py tests/fixtures/bags/expected.jsonl"
+    "tests/refs/bearing_xcorr.py tests/fixtures/bearing/xcorr_cases.json"
+    "tests/refs/bearing_planewave.py tests/fixtures/bearing/planewave_cases.json"
 )
 
 python="$(bash "$here/venv.sh")"

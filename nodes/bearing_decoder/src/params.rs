@@ -244,6 +244,18 @@ fn unit_interval(v: f64, key: &str) -> Result<(), ParamError> {
 }
 
 impl Params {
+    /// These parameters with the sensors `(name, x [m], y [m])` in base_link, which also
+    /// become the channel list used before a chem sample arrives.
+    pub fn with_sensors(mut self, sensors: &[(&str, f64, f64)]) -> Params {
+        self.channel_names = sensors.iter().map(|s| s.0.to_string()).collect();
+        self.sensors = SensorParams {
+            names: self.channel_names.clone(),
+            x: sensors.iter().map(|s| s.1).collect(),
+            y: sensors.iter().map(|s| s.2).collect(),
+        };
+        self
+    }
+
     /// The sensor layout (checked).
     pub fn sensor_array(&self) -> Result<SensorArray, ParamError> {
         let s = &self.sensors;

@@ -17,11 +17,9 @@ use synth::{median_p90, record, Input, Scenario};
 const DEG: f64 = std::f64::consts::PI / 180.0;
 
 fn params_for(s: &Scenario) -> Params {
-    let mut p = Params::default();
-    p.channel_names = synth::names(s);
-    p.sensors.names = synth::names(s);
-    p.sensors.x = s.sensors.iter().map(|q| q.0).collect();
-    p.sensors.y = s.sensors.iter().map(|q| q.1).collect();
+    let names = synth::names(s);
+    let sensors: Vec<(&str, f64, f64)> = names.iter().zip(&s.sensors).map(|(n, q)| (n.as_str(), q.0, q.1)).collect();
+    let mut p = Params::default().with_sensors(&sensors);
     p.amplitude.enabled = false; // the timing cue is under test
     p
 }
