@@ -277,15 +277,23 @@ impl LevelEncoder {
             } else {
                 break;
             };
+            let level = g.level(k);
+            if !level.is_finite() || (k != g.k && level == g.level(g.k)) {
+                // delta is below the resolution of f64 at this magnitude: no grid to follow.
+                g = Grid { anchor: x, k: 0.0, grid: delta, side: polarity };
+                self.counts.overflow = self.counts.overflow.saturating_add(1);
+                break;
+            }
             if n == max {
-                self.counts.overflow += self.jump(&mut g, x, polarity, h, lc);
+                let skipped = self.jump(&mut g, x, polarity, h, lc);
+                self.counts.overflow = self.counts.overflow.saturating_add(skipped);
                 break;
             }
             n += 1;
             g.k = k;
             g.side = polarity;
             let stamp = interpolate_stamp(t0, x0, t, x, thr);
-            self.emit(Crossing { stamp, polarity, level: g.level(k), delta }, out);
+            self.emit(Crossing { stamp, polarity, level, delta }, out);
         }
         self.grid = Some(g);
         self.prev = (t, x);
@@ -312,8 +320,11 @@ impl LevelEncoder {
         };
         let skipped = ((target - g.k) * p).max(0.0);
         if skipped > 0.0 {
-            // Re-anchor so the grid index stays small and exact.
-            *g = Grid { anchor: g.level(target), k: 0.0, grid: g.grid, side: polarity };
+            // Re-anchor so the grid index stays small and exact; past the range of f64 the
+            // reference simply becomes the signal.
+            let level = g.level(target);
+            let anchor = if level.is_finite() { level } else { x };
+            *g = Grid { anchor, k: 0.0, grid: g.grid, side: polarity };
         }
         skipped.min(u64::MAX as f64) as u64
     }

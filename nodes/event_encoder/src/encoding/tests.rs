@@ -295,6 +295,21 @@ fn a_huge_jump_is_capped_and_the_reference_lands_on_the_grid() {
     assert_eq!(lc.step(3 * MS, f64::INFINITY, true, &mut out), 0);
 }
 
+#[test]
+fn extreme_magnitudes_never_give_non_finite_levels() {
+    for mode in [Mode::SendOnDelta, Mode::LevelCrossing] {
+        let mut e = enc(|p| {
+            p.mode = mode;
+            p.delta = 0.001;
+        });
+        let xs = [0.0, 1e308, -1e308, 1e308, 1e300, 1e300 + 1e290, -5.0, -4.0, f64::MAX, -f64::MAX];
+        let ev = run(&mut e, xs.iter().enumerate().map(|(k, &x)| (k as Nanos * MS, x)));
+        assert!(ev.iter().all(|c| c.level.is_finite()), "{mode:?}: {ev:?}");
+        assert!(ev.len() <= xs.len() * 256);
+        assert!(e.counts().overflow > 0);
+    }
+}
+
 fn any_params() -> impl Strategy<Value = EncodingParams> {
     (
         prop_oneof![Just(Mode::SendOnDelta), Just(Mode::LevelCrossing)],
