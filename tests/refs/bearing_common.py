@@ -3,6 +3,7 @@ bearing_planewave.py): the pinned-version check and the deterministic JSON write
 
 from __future__ import annotations
 
+import argparse
 import json
 import sys
 from importlib.metadata import version
@@ -29,6 +30,22 @@ def check_versions(names=("numpy", "scipy")):
         if pins.get(name) != have:
             raise FixtureError(f"{name} {have} is installed but {REQUIREMENTS} pins "
                                f"{pins.get(name)}: run `bash tests/refs/venv.sh`")
+
+
+def run(doc_string: str, default_out: Path, tag: str, build) -> int:
+    """The command line of a fixture script: `[OUTPUT]` (default: the committed path); checks
+    the pinned versions, calls build() for the document and writes it."""
+    parser = argparse.ArgumentParser(description=doc_string.splitlines()[0])
+    parser.add_argument("out", nargs="?", type=Path, default=default_out)
+    args = parser.parse_args()
+    try:
+        check_versions()
+        doc = build()
+    except FixtureError as e:
+        print(f"{tag}: {e}", file=sys.stderr)
+        return 1
+    write_json(args.out, doc, tag)
+    return 0
 
 
 def write_json(out: Path, doc, tag: str) -> None:

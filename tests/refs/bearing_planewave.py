@@ -24,16 +24,14 @@ Usage: python tests/refs/bearing_planewave.py [OUTPUT]   (default: the committed
 
 from __future__ import annotations
 
-import argparse
 import itertools
 import math
 import sys
-from pathlib import Path
 
 import numpy as np
 import scipy.optimize
 
-from bearing_common import FIXTURE_DIR, FixtureError, check_versions, write_json
+from bearing_common import FIXTURE_DIR, FixtureError, run
 
 DEFAULT_OUT = FIXTURE_DIR / "planewave_cases.json"
 
@@ -119,20 +117,10 @@ def fit_cases(rng):
     return out
 
 
-def main() -> int:
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("out", nargs="?", type=Path, default=DEFAULT_OUT)
-    args = parser.parse_args()
-    try:
-        check_versions()
-        rng = np.random.default_rng(7_031_985)
-        doc = {"pairs": pair_cases(), "moving_pairs": moving_cases(rng), "fits": fit_cases(rng)}
-    except FixtureError as e:
-        print(f"bearing_planewave: {e}", file=sys.stderr)
-        return 1
-    write_json(args.out, doc, "bearing_planewave")
-    return 0
+def build():
+    rng = np.random.default_rng(7_031_985)
+    return {"pairs": pair_cases(), "moving_pairs": moving_cases(rng), "fits": fit_cases(rng)}
 
 
 if __name__ == "__main__":
-    sys.exit(main())
+    sys.exit(run(__doc__, DEFAULT_OUT, "bearing_planewave", build))

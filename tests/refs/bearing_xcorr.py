@@ -23,14 +23,12 @@ Usage: python tests/refs/bearing_xcorr.py [OUTPUT]   (default: the committed fix
 
 from __future__ import annotations
 
-import argparse
 import sys
-from pathlib import Path
 
 import numpy as np
 import scipy.signal
 
-from bearing_common import FIXTURE_DIR, FixtureError, check_versions, write_json
+from bearing_common import FIXTURE_DIR, FixtureError, run
 
 DEFAULT_OUT = FIXTURE_DIR / "xcorr_cases.json"
 MS = 1_000_000
@@ -132,20 +130,10 @@ def build():
     return {"cases": cases}
 
 
-def main() -> int:
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("out", nargs="?", type=Path, default=DEFAULT_OUT)
-    args = parser.parse_args()
-    try:
-        check_versions()
-        self_check()
-        doc = build()
-    except FixtureError as e:
-        print(f"bearing_xcorr: {e}", file=sys.stderr)
-        return 1
-    write_json(args.out, doc, "bearing_xcorr")
-    return 0
+def build_checked():
+    self_check()
+    return build()
 
 
 if __name__ == "__main__":
-    sys.exit(main())
+    sys.exit(run(__doc__, DEFAULT_OUT, "bearing_xcorr", build_checked))
