@@ -172,6 +172,20 @@ where
     out
 }
 
+/// `v` without empty lists (recursively): what a parameter file can hold, since rcl cannot
+/// give an empty list a type (it loads it as "not set").
+pub fn without_empty_lists(v: &Value) -> Value {
+    match v {
+        Value::Mapping(m) => Value::Mapping(
+            m.iter()
+                .filter(|(_, v)| !v.as_sequence().is_some_and(Vec::is_empty))
+                .map(|(k, v)| (k.clone(), without_empty_lists(v)))
+                .collect(),
+        ),
+        other => other.clone(),
+    }
+}
+
 /// `v` with integers turned into doubles where `template` (the current value) is a double or
 /// a list of doubles, and byte arrays turned into integer arrays. Other values pass through
 /// (the node's own validation decides).

@@ -199,7 +199,8 @@ impl std::fmt::Debug for NodeRuntime {
 
 impl NodeRuntime {
     /// Builds the core of `spec` for node `fqn` from the flat ROS parameters the node was
-    /// started with (`--params-file`, `-p`; ROS's own, like `use_sim_time`, are skipped).
+    /// started with (`--params-file`, `-p`; ROS's own, like `use_sim_time`, and values that
+    /// are not set are skipped).
     /// Integers are accepted for doubles; unknown names and invalid values are errors that
     /// name the key, with `source` saying where the values came from.
     pub fn start(spec: &NodeSpec, fqn: &str, flat: &[(String, ParamValue)], source: &str) -> Result<NodeRuntime, RuntimeError> {
@@ -207,7 +208,9 @@ impl NodeRuntime {
         let template = to_flat(&defaults.params_yaml())
             .map_err(|source| RuntimeError::Unrepresentable { node: fqn.to_string(), source })?;
         let mut given: Vec<(String, ParamValue)> = Vec::new();
-        for (k, v) in flat.iter().filter(|(k, _)| !is_reserved(k)) {
+        // ROS's own parameters stay with ROS; a value rcl could not type (an empty list in a
+        // parameter file arrives as "not set") keeps the default.
+        for (k, v) in flat.iter().filter(|(k, v)| !is_reserved(k) && *v != ParamValue::NotSet) {
             let v = match template.iter().find(|(t, _)| t == k) {
                 Some((_, t)) => coerce_like(t, v.clone()),
                 None => v.clone(), // the builder reports the unknown key

@@ -25,6 +25,7 @@ fn start_up_parameters_are_validated_and_integers_accepted_for_doubles() {
         ("limits.max_gain", ParamValue::Integer(4)),
         ("use_sim_time", ParamValue::Bool(true)),
         ("channels", ParamValue::StringArray(vec!["a".into()])),
+        ("limits.max_gain", ParamValue::NotSet),
     ]);
     assert_eq!(rt.param("gain"), Some(ParamValue::Double(3.0)));
     assert_eq!(rt.param("limits.max_gain"), Some(ParamValue::Double(4.0)));

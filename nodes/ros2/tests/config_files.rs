@@ -4,10 +4,12 @@
 //!   this test: `BLESS=1 cargo test -p sillage-ros2 --test config_files` rewrites it; without
 //!   BLESS the test fails when the file drifts from `NodeKind::default_params`.
 //! - `config/<node>.yaml` (one per node, written with comments by each node's developers) must
-//!   set every parameter of its node and hold the default values.
+//!   set every parameter of its node (except those whose default is an empty list, which a
+//!   parameter file cannot hold) and hold the default values.
 
 use serde_yaml::Value;
 use sillage_core::params::{flatten, section_for};
+use sillage_ros2::param_value::without_empty_lists;
 use sillage_ros2::spec::section_text;
 use sillage_stack::NodeKind;
 use std::collections::BTreeSet;
@@ -22,14 +24,18 @@ const HEADER: &str = "\
 # node name in any namespace). Generated from the code by
 #   BLESS=1 cargo test -p sillage-ros2 --test config_files
 # and checked by that test: do not edit by hand. Copy it, or config/robot_example.yaml, to
-# make a robot's own file, and validate that with `sillage check FILE`.
+# make a robot's own file, and validate that with `sillage check FILE`. Parameters whose
+# default is an empty list (e.g. the arbiter's geofence.polygon) are left out: a ROS 2
+# parameter file cannot give an empty list a type.
 ";
+
+
 
 fn generated() -> String {
     let mut text = HEADER.to_string();
     for kind in NodeKind::ALL {
         text.push('\n');
-        text.push_str(&section_text(kind.name(), &kind.default_params()));
+        text.push_str(&section_text(kind.name(), &without_empty_lists(&kind.default_params())));
     }
     text
 }
@@ -72,7 +78,8 @@ fn per_node_default_files_match_the_code() {
             }
         };
         let keys = |v: &Value| -> BTreeSet<String> { flatten(v).into_iter().map(|(k, _)| k).collect() };
-        let (have, want) = (keys(&section), keys(&kind.default_params()));
+        // Empty-list defaults cannot be written in a parameter file: not required.
+        let (have, want) = (keys(&section), keys(&without_empty_lists(&kind.default_params())));
         for k in want.difference(&have) {
             drift.push(format!("{file}: {} parameter '{k}' is missing", kind.name()));
         }

@@ -11,7 +11,7 @@
 //!   [`NodeKind::build_from_str`], the same code that starts the nodes. A `/**` section reaches
 //!   every node, so it may only set what all of them have.
 //! - Values are representable as ROS parameters (no lists of maps); `use_sim_time` is a
-//!   boolean. ROS's own parameters (`use_sim_time`, `qos_overrides.*`) are not passed to
+//!   boolean; an empty list is a warning (rcl cannot type it). ROS's own parameters (`use_sim_time`, `qos_overrides.*`) are not passed to
 //!   the nodes.
 
 use super::{known_nodes, Problem};
@@ -95,6 +95,14 @@ fn section_params(file: &str, key: &str, section: &Value, out: &mut Vec<Problem>
             for (name, v) in flat {
                 if name == "use_sim_time" && !matches!(v, crate::ParamValue::Bool(_)) {
                     out.push(Problem::error(file, format!("{key}.ros__parameters.use_sim_time"), "must be true or false"));
+                }
+                // Only an empty YAML list becomes an empty array here.
+                if matches!(&v, crate::ParamValue::DoubleArray(a) if a.is_empty()) {
+                    out.push(Problem::warning(
+                        file,
+                        format!("{key}.ros__parameters.{name}"),
+                        "an empty list has no ROS type: rcl loads it as 'not set' (sillage keeps the default, rclcpp tools refuse it); leave the key out instead",
+                    ));
                 }
             }
         }
@@ -237,7 +245,7 @@ mod tests {
     #[test]
     fn defaults_of_every_node_pass() {
         for kind in NodeKind::ALL {
-            let text = section_text(&format!("/robot1/{}", kind.name()), &kind.default_params());
+            let text = section_text(&format!("/robot1/{}", kind.name()), &crate::param_value::without_empty_lists(&kind.default_params()));
             assert_eq!(problems(&text), Vec::<String>::new(), "{}", kind.name());
         }
         assert!(problems("/**:\n  ros__parameters:\n    use_sim_time: true\n").is_empty());
@@ -260,6 +268,8 @@ mod tests {
         assert!(problems("arbiter: [").iter().all(|m| m.contains("invalid YAML")));
         let p = problems("/**:\n  ros__parameters:\n    use_sim_time: 1\n");
         assert!(p.len() == 1 && p[0].contains("use_sim_time: error: must be true or false"), "{p:?}");
+        let w = check_text("/**:\n  ros__parameters:\n    use_sim_time: false\n    nothing: []\n", "p.yaml");
+        assert!(w.iter().any(|p| !p.is_error() && p.key == "/**.ros__parameters.nothing"), "{w:?}");
         let p = problems("arbiter:\n  ros__parameters:\n    list: [{a: 1}]\n");
         assert!(p.len() == 1 && p[0].contains("arbiter.ros__parameters.list: error"), "{p:?}");
     }
