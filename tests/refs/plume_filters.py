@@ -22,7 +22,8 @@ to run with other versions): numpy 2.4.6, scipy 1.17.1.
   (sosfilt_zi(sos) * u[0] for the Butterworth), which is how the Rust chain primes itself.
   * Bouts: maximal runs of strict rises of the smoothed derivative (np.diff > 0), onset = the
     run's first sample, peak = its last, amplitude = e[peak] - e[onset]; a run still rising at
-    the end is not a bout; bouts below the threshold are dropped. Threshold = noise_factor *
+    the end is not a bout; bouts below the threshold are dropped, and with positive_peak so are
+    runs whose smoothed derivative is <= 0 at the peak. Threshold = noise_factor *
     1.4826 * median(|e - median(e)|) over the clean-air start (np.median).
   * Calibration: ln(d) = c0 + c1 r [+ c2 ln a] by np.linalg.lstsq; R^2, residual std
     sqrt(SSE/(n-p)), in-sample RMSE [m], leave-one-out by refitting without each point.
@@ -94,7 +95,7 @@ def gaussian_kernel(sigma: float, dt: float) -> np.ndarray:
     return w / w.sum()
 
 
-def bouts_numpy(e: np.ndarray, threshold: float) -> dict:
+def bouts_numpy(e: np.ndarray, threshold: float, positive_peak: bool) -> dict:
     rise = np.diff(e) > 0
     edges = np.diff(np.concatenate(([False], rise, [False])).astype(np.int8))
     onsets = np.flatnonzero(edges == 1)
@@ -102,7 +103,7 @@ def bouts_numpy(e: np.ndarray, threshold: float) -> dict:
     closed = peaks < rise.size
     onsets, peaks = onsets[closed], peaks[closed]
     amp = e[peaks] - e[onsets]
-    keep = amp >= threshold
+    keep = (amp >= threshold) & ((e[peaks] > 0) | (not positive_peak))
     return {
         "candidates": int(onsets.size),
         "onsets": onsets[keep].tolist(),
@@ -116,12 +117,12 @@ def robust_sigma(v: np.ndarray) -> float:
     return float(MAD_TO_SIGMA * np.median(np.abs(v - med)))
 
 
-def bout_case(name: str, e: np.ndarray, dt: float, noise_factor: float) -> dict:
+def bout_case(name: str, e: np.ndarray, dt: float, noise_factor: float, positive_peak: bool) -> dict:
     clean = int(round(CLEAN_AIR_S / dt))
     sigma = robust_sigma(e[:clean])
     threshold = noise_factor * sigma
-    return {"signal": name, "noise_samples": clean, "noise_sigma": sigma,
-            "noise_factor": noise_factor, "threshold": threshold, **bouts_numpy(e, threshold)}
+    return {"signal": name, "noise_samples": clean, "noise_sigma": sigma, "noise_factor": noise_factor,
+            "threshold": threshold, "positive_peak": positive_peak, **bouts_numpy(e, threshold, positive_peak)}
 
 
 def filter_case(name: str, rng: np.random.Generator, dt: float, duration: float) -> dict:
@@ -159,7 +160,8 @@ def filter_case(name: str, rng: np.random.Generator, dt: float, duration: float)
         "ema": {"input": "difference", "half_life": half_life, "alpha": alpha, "y": y_ema.tolist()},
         "fir": {"cutoff": fir_cutoff, "length": fir_length, "numtaps": numtaps, "taps": taps.tolist(),
                 "y": y_fir.tolist()},
-        "bouts": [bout_case("ema", y_ema, dt, 5.0), bout_case("fir", y_fir, dt, 5.0)],
+        "bouts": [bout_case(signal_name, y, dt, 5.0, positive)
+                  for signal_name, y in (("ema", y_ema), ("fir", y_fir)) for positive in (True, False)],
     }
 
 

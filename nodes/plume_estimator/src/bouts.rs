@@ -10,7 +10,9 @@
 //!
 //! A run that starts below zero (the smoothed derivative recovering from the fall after an
 //! earlier filament) includes that recovery; its amplitude too, as the rule says. The part of
-//! the run where the signal itself rises (derivative > 0) starts at `rise_start`.
+//! the run where the signal itself rises (derivative > 0) starts at `rise_start`. A run that
+//! never gets above zero is only a recovery from a fall, not a rise of the signal; the
+//! `bouts.positive_peak` rule (on by default) drops such runs.
 
 use sillage_core::Nanos;
 
@@ -26,6 +28,9 @@ pub struct Bout {
     /// Grid time of the last sample of the run with a derivative <= 0 (the onset when the
     /// run starts above 0): from here to the peak the signal rises [ns].
     pub rise_start: Nanos,
+    /// Smoothed derivative at the peak [signal units / s]; <= 0 means the signal never rose
+    /// during the run (it only fell more slowly).
+    pub peak_value: f64,
 }
 
 /// Streaming rising-run detector.
@@ -69,7 +74,7 @@ impl BoutTracker {
             None
         } else {
             let (t0, e0) = self.onset.take()?;
-            Some(Bout { onset: t0, peak: tp, amplitude: ep - e0, rise_start: self.rise_start })
+            Some(Bout { onset: t0, peak: tp, amplitude: ep - e0, rise_start: self.rise_start, peak_value: ep })
         }
     }
 }
@@ -96,7 +101,7 @@ mod tests {
         // A run from below zero: the signal rises from where the derivative last was <= 0.
         let mut tr = BoutTracker::new();
         let b: Vec<Bout> = [-2.0, -1.0, 0.0, 1.5, 2.0, 1.0].iter().enumerate().filter_map(|(n, &v)| tr.step(n as Nanos, v)).collect();
-        assert_eq!(b, vec![Bout { onset: 0, peak: 4, amplitude: 4.0, rise_start: 2 }]);
+        assert_eq!(b, vec![Bout { onset: 0, peak: 4, amplitude: 4.0, rise_start: 2, peak_value: 2.0 }]);
         assert!(bouts(&[1.0, 1.0, 1.0]).is_empty(), "ties are not rises");
     }
 

@@ -112,8 +112,24 @@ fn mean_sd(v: impl Iterator<Item = f64> + Clone) -> (f64, f64) {
     (m, (v.map(|x| (x - m) * (x - m)).sum::<f64>() / n).sqrt())
 }
 
+/// A fit with its per-point predictions (for plots and tables).
+#[derive(Debug, Clone, PartialEq)]
+pub struct FitReport {
+    /// The model and its figures.
+    pub fit: Fit,
+    /// In-sample predicted distance of each point [m].
+    pub fitted: Vec<f64>,
+    /// Leave-one-out predicted distance of each point [m].
+    pub loo: Vec<f64>,
+}
+
 /// Fits the distance model to `points`.
 pub fn fit(points: &[CalibrationPoint], use_amplitude: bool) -> Result<Fit, PlumeError> {
+    fit_report(points, use_amplitude).map(|r| r.fit)
+}
+
+/// Fits the distance model to `points`, with per-point predictions.
+pub fn fit_report(points: &[CalibrationPoint], use_amplitude: bool) -> Result<FitReport, PlumeError> {
     check_points(points, use_amplitude)?;
     let n = points.len();
     let nf = n as f64;
@@ -159,6 +175,7 @@ pub fn fit(points: &[CalibrationPoint], use_amplitude: bool) -> Result<Fit, Plum
     let intercept = ym - rate_coef * rm - amplitude_coef * am;
 
     let (mut sse, mut se_m, mut loo_se, mut loo_se_m, mut loo_rel) = (0.0, 0.0, 0.0, 0.0, 0.0);
+    let (mut fitted_d, mut loo_d) = (Vec::with_capacity(n), Vec::with_capacity(n));
     for (i, (q, yi)) in points.iter().zip(&y).enumerate() {
         let zi = z(q);
         let fitted = ym + b0 * zi[0] + b1 * zi[1];
@@ -179,9 +196,11 @@ pub fn fit(points: &[CalibrationPoint], use_amplitude: bool) -> Result<Fit, Plum
         loo_se += e_loo * e_loo;
         loo_se_m += (d_loo - q.distance).powi(2);
         loo_rel += (d_loo - q.distance).abs() / q.distance;
+        fitted_d.push(fitted.exp());
+        loo_d.push(d_loo);
     }
     let sst = ysd * ysd * nf;
-    Ok(Fit {
+    let fit = Fit {
         use_amplitude,
         intercept,
         rate_coef,
@@ -193,7 +212,8 @@ pub fn fit(points: &[CalibrationPoint], use_amplitude: bool) -> Result<Fit, Plum
         loo_rmse: (loo_se_m / nf).sqrt(),
         loo_rmse_ln: (loo_se / nf).sqrt(),
         loo_mean_relative: loo_rel / nf,
-    })
+    };
+    Ok(FitReport { fit, fitted: fitted_d, loo: loo_d })
 }
 
 #[cfg(test)]
@@ -238,6 +258,10 @@ mod tests {
             se += (g.predict_ln(all[i].bout_rate, 1.0).exp() - all[i].distance).powi(2);
         }
         assert_relative_eq!(f.loo_rmse, (se / all.len() as f64).sqrt(), max_relative = 1e-12);
+        let r = fit_report(&all, false).expect("fits");
+        let se2: f64 = r.loo.iter().zip(&all).map(|(d, q)| (d - q.distance).powi(2)).sum();
+        assert_relative_eq!(f.loo_rmse, (se2 / all.len() as f64).sqrt(), max_relative = 1e-12);
+        assert_relative_eq!(r.fitted[0], f.predict_ln(0.2, 1.0).exp(), max_relative = 1e-12);
     }
 
     #[test]

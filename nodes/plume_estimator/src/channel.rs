@@ -41,6 +41,7 @@ struct Pipeline {
     threshold: Option<f64>,
     mode: ThresholdMode,
     noise_factor: f64,
+    positive_peak: bool,
     presence: PresenceMode,
     presence_level: f64,
     dt: f64,
@@ -72,7 +73,7 @@ impl Pipeline {
             self.ring.open.presence += self.dt;
         }
         if let Some(b) = bout {
-            if b.amplitude >= threshold {
+            if b.amplitude >= threshold && (b.peak_value > 0.0 || !self.positive_peak) {
                 self.ring.open.bouts += 1;
                 self.ring.open.amplitude_sum += b.amplitude;
                 if self.presence == PresenceMode::Bouts {
@@ -115,6 +116,7 @@ impl Channel {
                 threshold: (p.bouts.threshold_mode == ThresholdMode::Absolute).then_some(p.bouts.threshold),
                 mode: p.bouts.threshold_mode,
                 noise_factor: p.bouts.noise_factor,
+                positive_peak: p.bouts.positive_peak,
                 presence: p.features.presence,
                 presence_level: p.features.presence_level,
                 dt,

@@ -19,6 +19,11 @@ pub fn index_name(i: usize) -> String {
     format!("channel{i}")
 }
 
+/// Whether `name` is [`index_name`]`(i)` (without allocating: checked per sample).
+pub fn is_index_name(name: &str, i: usize) -> bool {
+    name.strip_prefix("channel").and_then(|n| n.parse::<usize>().ok()) == Some(i)
+}
+
 fn name(part: &str) -> String {
     format!("{}: {part}", crate::NODE_NAME)
 }

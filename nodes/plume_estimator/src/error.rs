@@ -27,4 +27,7 @@ pub enum PlumeError {
     /// The calibration points cannot determine the model.
     #[error("calibration is degenerate: {reason}")]
     Degenerate { reason: String },
+    /// A CSV file of features or ground truth that cannot be read.
+    #[error("{file}:{line}: {reason}")]
+    Csv { file: String, line: usize, reason: String },
 }

@@ -4,7 +4,8 @@
 //! Pipeline per channel: conditioning ([`conditioning`]) → uniform grid ([`grid`]) →
 //! band-pass to a smoothed derivative ([`chain`], built from [`filters`]) → bouts
 //! ([`bouts`], threshold from [`noise`]) → per-step bins → window features ([`window`]) →
-//! pooled over channels → distance ([`distance`], fitted by [`calibration`]). The node
+//! pooled over channels → distance ([`distance`], fitted by [`calibration`] from windows
+//! labelled by [`labels`]). The node
 //! ([`node`]) publishes `plume_features` every `features.step`; [`diagnostics`] reports
 //! per-channel values.
 
@@ -18,6 +19,7 @@ pub mod distance;
 pub mod error;
 pub mod filters;
 pub mod grid;
+pub mod labels;
 pub mod node;
 pub mod noise;
 pub mod params;

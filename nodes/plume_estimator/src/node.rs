@@ -200,7 +200,7 @@ impl PlumeEstimator {
             return false;
         }
         if m.channels.is_empty() {
-            return self.channels.iter().enumerate().all(|(i, c)| c.name() == diagnostics::index_name(i));
+            return self.channels.iter().enumerate().all(|(i, c)| diagnostics::is_index_name(c.name(), i));
         }
         self.channels.iter().zip(&m.channels).all(|(c, name)| c.name() == name)
     }

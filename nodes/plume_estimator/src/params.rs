@@ -137,6 +137,10 @@ pub struct BoutParams {
     pub threshold: f64,
     /// Threshold as a multiple of the clean-air noise for `noise` (> 0). Project default.
     pub noise_factor: f64,
+    /// Count only runs whose smoothed derivative ends above zero (the signal really rises);
+    /// off = every run above the threshold, also the recovery after a fast fall. Project
+    /// default.
+    pub positive_peak: bool,
     /// Clean-air learning time at the start of each channel [s] (> 0): the noise of the
     /// smoothed derivative is its robust standard deviation (1.4826 x median absolute
     /// deviation) over this time. The sensor must sit in clean air then.
@@ -145,7 +149,7 @@ pub struct BoutParams {
 
 impl Default for BoutParams {
     fn default() -> Self {
-        BoutParams { threshold_mode: ThresholdMode::Noise, threshold: 0.0, noise_factor: 5.0, learn_time: 5.0 }
+        BoutParams { threshold_mode: ThresholdMode::Noise, threshold: 0.0, noise_factor: 5.0, positive_peak: true, learn_time: 5.0 }
     }
 }
 

@@ -155,6 +155,28 @@ fn the_grid_rate_is_measured_and_gaps_restart_the_chain() {
     assert_eq!(node.channels()[0].counts().restarts, 1);
 }
 
+/// Jittered stamps (up to +-40 % of the period) and dropped samples give the same bouts as a
+/// regular stream: the grid interpolates them onto the design rate.
+#[test]
+fn irregular_stamps_give_the_same_bouts() {
+    let count = |stamps: &[f64]| {
+        let mut p = relative_params();
+        p.input.sample_rate = 100.0;
+        let mut node = PlumeEstimator::new(p).expect("params");
+        feed(&mut node, stamps.iter().map(|&s| {
+            let t = T0 + (s * 1e9).round() as Nanos;
+            (t, chem(t, &["a"], &[signal(s, 1.3)], 4))
+        }));
+        node.channels()[0].counts().bouts
+    };
+    let regular: Vec<f64> = (0..4000).map(|k| k as f64 * 0.01).collect();
+    let jittered: Vec<f64> = (0..4000).filter(|k| k % 17 != 5).map(|k| k as f64 * 0.01 + 0.004 * (((k * 7919) % 9) as f64 - 4.0) / 4.0).collect();
+    let (a, b) = (count(&regular), count(&jittered));
+    // Pulses every 1.3 s from 6 s to 40 s: 27 of them.
+    assert!((26..=28).contains(&a), "regular: {a}");
+    assert_eq!(a, b, "jittered and thinned stamps");
+}
+
 #[test]
 fn a_measured_rate_too_low_for_the_filters_is_an_error_not_a_panic() {
     let mut p = relative_params();

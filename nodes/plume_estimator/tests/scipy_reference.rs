@@ -125,13 +125,13 @@ fn whole_chains_equal_the_scipy_cascade() {
     }
 }
 
-fn tracker_bouts(e: &[f64], threshold: f64) -> (Vec<usize>, Vec<usize>, Vec<f64>, usize) {
+fn tracker_bouts(e: &[f64], threshold: f64, positive_peak: bool) -> (Vec<usize>, Vec<usize>, Vec<f64>, usize) {
     let mut tr = BoutTracker::new();
     let (mut on, mut pk, mut amp, mut candidates) = (Vec::new(), Vec::new(), Vec::new(), 0);
     for (n, &v) in e.iter().enumerate() {
         if let Some(b) = tr.step(n as i64, v) {
             candidates += 1;
-            if b.amplitude >= threshold {
+            if b.amplitude >= threshold && (b.peak_value > 0.0 || !positive_peak) {
                 on.push(b.onset as usize);
                 pk.push(b.peak as usize);
                 amp.push(b.amplitude);
@@ -146,13 +146,14 @@ fn bouts_equal_the_vectorised_numpy_detector() {
     let doc = fixture();
     for case in doc["cases"].as_array().expect("cases") {
         for b in case["bouts"].as_array().expect("bouts") {
-            let what = format!("{} {}", case["name"], b["signal"]);
+            let what = format!("{} {} positive_peak={}", case["name"], b["signal"], b["positive_peak"]);
             let e = arr(&case[b["signal"].as_str().expect("signal")]["y"]);
             let clean = b["noise_samples"].as_u64().expect("samples") as usize;
             let mut head = e[..clean].to_vec();
             let sigma = robust_sigma(&mut head);
             assert!((sigma / num(&b["noise_sigma"]) - 1.0).abs() <= 1e-12, "{what}: noise {sigma} vs numpy");
-            let (on, pk, amp, candidates) = tracker_bouts(&e, num(&b["threshold"]));
+            let positive = b["positive_peak"].as_bool().expect("flag");
+            let (on, pk, amp, candidates) = tracker_bouts(&e, num(&b["threshold"]), positive);
             assert_eq!(on, indices(&b["onsets"]), "{what}: onsets");
             assert_eq!(pk, indices(&b["peaks"]), "{what}: peaks");
             assert_eq!(candidates as u64, b["candidates"].as_u64().expect("candidates"), "{what}: rising runs");
@@ -176,6 +177,7 @@ fn node_counts_the_numpy_bouts() {
             p.filter = chain_params(kind);
             p.bouts.threshold_mode = ThresholdMode::Noise;
             p.bouts.noise_factor = num(&b["noise_factor"]);
+            p.bouts.positive_peak = b["positive_peak"].as_bool().expect("flag");
             p.bouts.learn_time = clean as f64 * dt;
             // RELATIVE values pass through; with baseline removal off the chain sees the input.
             p.conditioning.baseline_time_constant = 0.0;
