@@ -183,6 +183,11 @@ impl R0 {
         if self.fixed > 0.0 {
             return self.fixed;
         }
+        if let (Some(start), false) = (self.start, self.learning) {
+            if self.n > 0 && t >= start {
+                return self.sum / self.n as f64; // learned: frozen
+            }
+        }
         let start = *self.start.get_or_insert(t);
         self.learning = t.saturating_sub(start) < self.window;
         if self.learning || self.n == 0 {
@@ -279,12 +284,7 @@ impl Conditioner {
         }
         match self.quantity {
             Some(q) if q == quantity => {}
-            Some(_) => {
-                let mut fresh = Conditioner::new(&self.params);
-                let out = fresh.step(t, raw, quantity)?;
-                *self = fresh;
-                return Ok(out);
-            }
+            Some(_) => return self.restart(t, raw, quantity),
             None => self.transform = self.params.transform.resolve(quantity)?,
         }
         let c = self.params.gain * raw + self.params.offset;
@@ -305,6 +305,17 @@ impl Conditioner {
             transform::apply(self.transform, c, quantity, 0.0)?
         };
         Ok(self.finish(t, raw, quantity, y))
+    }
+
+    /// A change of quantity: a fresh conditioner takes the value (and replaces this one only
+    /// if it accepts it).
+    #[cold]
+    #[inline(never)]
+    fn restart(&mut self, t: Nanos, raw: f64, quantity: u8) -> Result<f64, SampleFault> {
+        let mut fresh = Conditioner::new(&self.params);
+        let out = fresh.step(t, raw, quantity)?;
+        *self = fresh;
+        Ok(out)
     }
 
     #[inline]
