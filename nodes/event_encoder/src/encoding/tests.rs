@@ -52,6 +52,7 @@ fn sinusoid_gives_about_four_a_over_delta_events_per_period() {
         // Skip the first period (start-up from the zero crossing), count the others.
         let steady: Vec<_> = events.iter().filter(|c| c.stamp >= S).collect();
         let per_period = steady.len() as f64 / (periods - 1.0);
+        eprintln!("{mode:?}: {per_period} events per period (TV/delta = {tv_per_delta})");
         assert!(per_period <= tv_per_delta + 1e-9, "{mode:?}: {per_period} > TV/delta = {tv_per_delta}");
         assert!(per_period >= tv_per_delta - 2.0, "{mode:?}: {per_period} < TV/delta - 2");
         // Exact values: the last-sent rule loses one level at each turn (lag 0.05 = delta/2
@@ -138,6 +139,7 @@ fn random_stretches_respect_the_counting_law() {
     }
     // The lag at a turning point is spread over [0, delta): one event lost per turn on average.
     let mean = deficit_total / turns_total as f64;
+    eprintln!("random stretches: mean deficit {mean:.3} events per turning point over {turns_total} turns");
     assert!((0.85..1.15).contains(&mean), "mean deficit per turning point {mean}");
 }
 
