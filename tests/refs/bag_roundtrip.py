@@ -38,7 +38,7 @@ from make_cdr_fixtures import check_versions, load_store, to_value  # noqa: E402
 
 ROOT = Path(__file__).resolve().parents[2]
 FIXTURES = ROOT / "tests" / "fixtures" / "bags"
-DEMO = ROOT / "tests" / "fixtures" / "demo" / "workshop_crossing"
+DEMO = ROOT / "tests" / "fixtures" / "demo" / "demo_bag"
 BAGS = ["rosbags_mcap", "rosbags_sqlite3", "mcap_ros2.mcap"]
 
 results: list[tuple[str, bool, str]] = []

@@ -15,7 +15,9 @@
 // Errors carry the file, topic and offset by design (a few strings); they are rare.
 #![allow(clippy::result_large_err)]
 
+pub mod decode;
 pub mod error;
+pub mod fuzzing;
 pub mod info;
 pub mod json;
 pub mod mcap_read;

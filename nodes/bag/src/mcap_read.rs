@@ -14,6 +14,7 @@ use mcap::sans_io::{MessageReadEvent, MessageReader, SummaryReadEvent, SummaryRe
 use std::collections::HashMap;
 use std::io::{Read, Seek, SeekFrom};
 use std::path::{Path, PathBuf};
+use std::sync::mpsc::{sync_channel, Receiver, SyncSender};
 
 /// Largest decompressed chunk accepted [bytes]; a corrupt size field must not allocate more.
 pub const MAX_CHUNK_BYTES: u64 = 1 << 30;
@@ -28,7 +29,12 @@ struct Entry {
     end: u32,
     /// Offset of the record in the decompressed chunk.
     record: u32,
+    /// CRC-32 of the data (for duplicate detection), computed where the chunk is decoded.
+    crc: u32,
 }
+
+/// Channels declared inside a chunk, by id.
+type Learnt = Vec<(u16, TopicDecl)>;
 
 /// A decompressed chunk and its messages in log-time order.
 struct LoadedChunk {
@@ -36,6 +42,8 @@ struct LoadedChunk {
     buf: Vec<u8>,
     entries: Vec<Entry>,
     pos: usize,
+    /// Channels declared inside the chunk.
+    learnt: Learnt,
 }
 
 impl LoadedChunk {
@@ -44,14 +52,23 @@ impl LoadedChunk {
     }
 }
 
+/// Where the next chunk comes from: read here, or from the prefetch thread (which reads them
+/// in the same order, at most [`PREFETCH`] ahead).
+enum Feed {
+    Inline { raw: Vec<u8> },
+    Thread { rx: Receiver<Result<LoadedChunk, BagError>>, spare_tx: SyncSender<Vec<u8>> },
+}
+
+/// Chunks decoded ahead of the reader by the prefetch thread.
+pub const PREFETCH: usize = 2;
+
 /// Chunks in order of their first log time, and those loaded now.
-#[derive(Default)]
 struct Indexed {
     chunks: Vec<ChunkIndex>,
     next: usize,
     active: Vec<LoadedChunk>,
     spare: Vec<Vec<u8>>,
-    raw: Vec<u8>,
+    feed: Feed,
     current: Option<usize>,
 }
 
@@ -60,16 +77,22 @@ enum Mode {
     Linear { reader: Box<MessageReader>, current: Option<mcap::Message<'static>>, done: bool },
 }
 
-/// The file and what is known about it.
-struct FileCtx<R> {
+/// Reads, checks and indexes chunks of one file.
+struct ChunkLoader<R> {
     path: PathBuf,
     file: R,
     file_len: u64,
-    channels: HashMap<u16, TopicDecl>,
     start: u64,
     end: u64,
+}
+
+/// The file and what is known about it.
+struct FileCtx<R> {
+    loader: ChunkLoader<R>,
+    channels: HashMap<u16, TopicDecl>,
     warnings: Vec<String>,
     offset_read: u64,
+    linear_crc: u32,
 }
 
 /// A cursor over one MCAP file.
@@ -77,6 +100,8 @@ pub struct McapSource<R: Read + Seek> {
     ctx: FileCtx<R>,
     summary: Option<mcap::Summary>,
     mode: Mode,
+    /// Start the prefetch thread at the first advance (files opened by path).
+    want_prefetch: bool,
 }
 
 fn mcap_err(path: &Path, at: Location, e: impl std::fmt::Display) -> BagError {
@@ -120,14 +145,45 @@ fn read_summary<R: Read + Seek>(file: &mut R, len: u64) -> Result<Option<mcap::S
 }
 
 impl McapSource<std::io::BufReader<std::fs::File>> {
-    /// Opens an MCAP file for messages with log times in `[start, end]` [ns].
+    /// Opens an MCAP file for messages with log times in `[start, end]` [ns]; chunks are then
+    /// decoded ahead on a thread of their own from the first [`Source::advance`] on.
     pub fn open(path: &Path, start: i64, end: i64) -> Result<Self, BagError> {
         let f = std::fs::File::open(path).map_err(|e| BagError::io(path, e))?;
-        McapSource::new(path, std::io::BufReader::with_capacity(1 << 16, f), start, end)
+        let mut s = McapSource::new(path, std::io::BufReader::with_capacity(1 << 16, f), start, end)?;
+        s.want_prefetch = true;
+        Ok(s)
     }
 }
 
 impl<R: Read + Seek> McapSource<R> {
+    /// Moves chunk reading to a thread of its own with a second handle on the file: it reads,
+    /// decompresses, checks and indexes the chunks in order, at most [`PREFETCH`] ahead.
+    fn prefetch(&mut self) -> Result<(), BagError> {
+        let Mode::Indexed(ix) = &mut self.mode else { return Ok(()) };
+        if ix.chunks.len() < 2 {
+            return Ok(());
+        }
+        let l = &self.ctx.loader;
+        let f = std::fs::File::open(&l.path).map_err(|e| BagError::io(&l.path, e))?;
+        let mut loader = ChunkLoader { path: l.path.clone(), file: std::io::BufReader::with_capacity(1 << 16, f), file_len: l.file_len, start: l.start, end: l.end };
+        let chunks = ix.chunks.clone();
+        let (tx, rx) = sync_channel(PREFETCH);
+        let (spare_tx, spare_rx) = sync_channel::<Vec<u8>>(PREFETCH + 2);
+        std::thread::spawn(move || {
+            let mut raw = Vec::new();
+            for ci in &chunks {
+                let buf = spare_rx.try_recv().unwrap_or_default();
+                let r = loader.load(ci, &mut raw, buf);
+                let failed = r.is_err();
+                if tx.send(r).is_err() || failed {
+                    return;
+                }
+            }
+        });
+        ix.feed = Feed::Thread { rx, spare_tx };
+        Ok(())
+    }
+
     /// A cursor over MCAP bytes from `file`; `path` labels errors.
     pub fn new(path: &Path, mut file: R, start: i64, end: i64) -> Result<Self, BagError> {
         let path = path.to_path_buf();
@@ -160,15 +216,19 @@ impl<R: Read + Seek> McapSource<R> {
                     .cloned()
                     .collect();
                 chunks.sort_by_key(|c| (c.message_start_time, c.chunk_start_offset));
-                Mode::Indexed(Indexed { chunks, ..Default::default() })
+                Mode::Indexed(Indexed { chunks, next: 0, active: Vec::new(), spare: Vec::new(), feed: Feed::Inline { raw: Vec::new() }, current: None })
             }
             _ => {
                 file.seek(SeekFrom::Start(0)).map_err(io)?;
-                Mode::Linear { reader: Box::new(MessageReader::new()), current: None, done: false }
+                let opts = mcap::sans_io::LinearReaderOptions::default()
+                    .with_record_length_limit(MAX_CHUNK_BYTES as usize)
+                    .with_validate_chunk_crcs(true);
+                Mode::Linear { reader: Box::new(MessageReader::new_with_options(opts)), current: None, done: false }
             }
         };
-        let ctx = FileCtx { path, file, file_len, channels, start, end, warnings, offset_read: 0 };
-        Ok(McapSource { ctx, summary, mode })
+        let loader = ChunkLoader { path, file, file_len, start, end };
+        let ctx = FileCtx { loader, channels, warnings, offset_read: 0, linear_crc: 0 };
+        Ok(McapSource { ctx, summary, mode, want_prefetch: false })
     }
 
     /// The summary section, when the file has one.
@@ -182,9 +242,9 @@ impl<R: Read + Seek> McapSource<R> {
     }
 }
 
-impl<R: Read + Seek> FileCtx<R> {
-    /// Reads, checks and indexes the chunk `ci` into a buffer taken from `spare`.
-    fn load_chunk(&mut self, ci: &ChunkIndex, raw: &mut Vec<u8>, spare: &mut Vec<Vec<u8>>) -> Result<LoadedChunk, BagError> {
+impl<R: Read + Seek> ChunkLoader<R> {
+    /// Reads, checks and indexes the chunk `ci` into `buf` (a recycled buffer).
+    fn load(&mut self, ci: &ChunkIndex, raw: &mut Vec<u8>, mut buf: Vec<u8>) -> Result<LoadedChunk, BagError> {
         let path = &self.path;
         let at = Location::Chunk(ci.chunk_start_offset);
         let bad = |reason: String| mcap_err(path, at.clone(), reason);
@@ -207,7 +267,6 @@ impl<R: Read + Seek> FileCtx<R> {
             return Err(bad(format!("uncompressed size {} is larger than the {MAX_CHUNK_BYTES}-byte limit", header.uncompressed_size)));
         }
         let size = header.uncompressed_size as usize;
-        let mut buf = spare.pop().unwrap_or_default();
         buf.clear();
         match header.compression.as_str() {
             "" => buf.extend_from_slice(&data),
@@ -235,14 +294,15 @@ impl<R: Read + Seek> FileCtx<R> {
                 return Err(BagError::ChunkCrc { path: path.clone(), offset: ci.chunk_start_offset, saved: header.uncompressed_crc, computed });
             }
         }
-        let entries = self.index_chunk(&buf, ci.chunk_start_offset)?;
-        Ok(LoadedChunk { offset: ci.chunk_start_offset, buf, entries, pos: 0 })
+        let (entries, learnt) = self.index_chunk(&buf, ci.chunk_start_offset)?;
+        Ok(LoadedChunk { offset: ci.chunk_start_offset, buf, entries, pos: 0, learnt })
     }
 
     /// The message records of a decompressed chunk within the time range, in log-time order
-    /// (file order for equal times); channels and schemas found inside are learnt.
-    fn index_chunk(&mut self, buf: &[u8], chunk: u64) -> Result<Vec<Entry>, BagError> {
+    /// (file order for equal times), and the channels declared inside.
+    fn index_chunk(&self, buf: &[u8], chunk: u64) -> Result<(Vec<Entry>, Learnt), BagError> {
         let mut entries = Vec::new();
+        let mut learnt = Vec::new();
         let mut pos = 0usize;
         let mut schemas: HashMap<u16, (String, String, String)> = HashMap::new();
         while pos < buf.len() {
@@ -276,6 +336,7 @@ impl<R: Read + Seek> FileCtx<R> {
                             start: (body_start + 22) as u32,
                             end: (body_start + body.len()) as u32,
                             record: pos as u32,
+                            crc: crc32fast::hash(&body[22..]),
                         });
                     }
                 }
@@ -283,15 +344,10 @@ impl<R: Read + Seek> FileCtx<R> {
                     Ok(mcap::records::Record::Schema { header, data }) => {
                         schemas.insert(header.id, (header.name, header.encoding, String::from_utf8_lossy(&data).into_owned()));
                     }
-                    Ok(mcap::records::Record::Channel(c)) if !self.channels.contains_key(&c.id) => {
-                        {
-                            let (type_name, schema_encoding, schema) = schemas.get(&c.schema_id).cloned().unwrap_or_default();
-                            let qos = c.metadata.get("offered_qos_profiles").cloned().unwrap_or_default();
-                            self.channels.insert(
-                                c.id,
-                                TopicDecl { name: c.topic, type_name, encoding: c.message_encoding, schema_encoding, schema, qos },
-                            );
-                        }
+                    Ok(mcap::records::Record::Channel(c)) => {
+                        let (type_name, schema_encoding, schema) = schemas.get(&c.schema_id).cloned().unwrap_or_default();
+                        let qos = c.metadata.get("offered_qos_profiles").cloned().unwrap_or_default();
+                        learnt.push((c.id, TopicDecl { name: c.topic, type_name, encoding: c.message_encoding, schema_encoding, schema, qos }));
                     }
                     Ok(_) => {}
                     Err(e) => return Err(bad(&e.to_string())),
@@ -303,15 +359,51 @@ impl<R: Read + Seek> FileCtx<R> {
         if !entries.windows(2).all(|w| w[0].log_time <= w[1].log_time) {
             entries.sort_by_key(|e| e.log_time); // stable: equal times keep file order
         }
-        Ok(entries)
+        Ok((entries, learnt))
+    }
+}
+
+impl<R: Read + Seek> FileCtx<R> {
+    /// The next chunk in start-time order, from the thread or read here.
+    fn next_chunk(&mut self, ix: &mut Indexed) -> Result<LoadedChunk, BagError> {
+        let ci = ix.chunks[ix.next].clone();
+        ix.next += 1;
+        let c = match &mut ix.feed {
+            Feed::Inline { raw } => self.loader.load(&ci, raw, ix.spare.pop().unwrap_or_default())?,
+            Feed::Thread { rx, .. } => match rx.recv() {
+                Ok(r) => r?,
+                Err(_) => return Err(mcap_err(&self.loader.path, Location::Chunk(ci.chunk_start_offset), "chunk reader thread stopped")),
+            },
+        };
+        for (id, d) in &c.learnt {
+            self.channels.entry(*id).or_insert_with(|| d.clone());
+        }
+        Ok(c)
+    }
+
+    fn recycle(ix: &mut Indexed, buf: Vec<u8>) {
+        match &ix.feed {
+            Feed::Thread { spare_tx, .. } => {
+                let _ = spare_tx.try_send(buf);
+            }
+            Feed::Inline { .. } => ix.spare.push(buf),
+        }
     }
 
     fn advance_indexed(&mut self, ix: &mut Indexed) -> Result<bool, BagError> {
         if let Some(i) = ix.current.take() {
             ix.active[i].pos += 1;
-            if ix.active[i].head_time().is_none() {
-                let done = ix.active.swap_remove(i);
-                ix.spare.push(done.buf);
+            match ix.active[i].head_time() {
+                // Fast path: one chunk loaded and the next one starts later.
+                Some(t) if ix.active.len() == 1 && ix.chunks.get(ix.next).is_none_or(|c| c.message_start_time > t) => {
+                    ix.current = Some(i);
+                    return Ok(true);
+                }
+                Some(_) => {}
+                None => {
+                    let done = ix.active.swap_remove(i);
+                    Self::recycle(ix, done.buf);
+                }
             }
         }
         // Load every chunk that may hold a message before the earliest one loaded.
@@ -319,11 +411,9 @@ impl<R: Read + Seek> FileCtx<R> {
             let min = ix.active.iter().filter_map(LoadedChunk::head_time).min();
             match ix.chunks.get(ix.next) {
                 Some(ci) if min.is_none_or(|m| ci.message_start_time <= m) => {
-                    let ci = ci.clone();
-                    ix.next += 1;
-                    let c = self.load_chunk(&ci, &mut ix.raw, &mut ix.spare)?;
+                    let c = self.next_chunk(ix)?;
                     if c.entries.is_empty() {
-                        ix.spare.push(c.buf);
+                        Self::recycle(ix, c.buf);
                     } else {
                         ix.active.push(c);
                     }
@@ -360,15 +450,16 @@ impl<R: Read + Seek> FileCtx<R> {
             match event {
                 Ok(MessageReadEvent::ReadRequest(n)) => {
                     let buf = reader.insert(n);
-                    let k = self.file.read(buf).map_err(|e| BagError::io(&self.path, e))?;
+                    let k = self.loader.file.read(buf).map_err(|e| BagError::io(&self.loader.path, e))?;
                     self.offset_read += k as u64;
                     reader.notify_read(k);
                 }
                 Ok(MessageReadEvent::Message(m)) => {
-                    if m.log_time < self.start || m.log_time > self.end {
+                    if m.log_time < self.loader.start || m.log_time > self.loader.end {
                         continue;
                     }
                     self.channels.entry(m.channel.id).or_insert_with(|| decl_of(&m.channel));
+                    self.linear_crc = crc32fast::hash(&m.data);
                     *current = Some(m);
                     return Ok(true);
                 }
@@ -379,11 +470,11 @@ impl<R: Read + Seek> FileCtx<R> {
                         mcap::McapError::UnexpectedEof | mcap::McapError::BadMagic | mcap::McapError::BadFooter => {
                             self.warnings.push(format!(
                                 "{}: file ends early (cut off near {at}: {e}); the messages before that were read",
-                                self.path.display()
+                                self.loader.path.display()
                             ));
                             Ok(false)
                         }
-                        other => Err(mcap_err(&self.path, at, other)),
+                        other => Err(mcap_err(&self.loader.path, at, other)),
                     };
                 }
             }
@@ -393,14 +484,14 @@ impl<R: Read + Seek> FileCtx<R> {
 
 impl<R: Read + Seek> Source for McapSource<R> {
     fn path(&self) -> &Path {
-        &self.ctx.path
+        &self.ctx.loader.path
     }
 
     fn start_time(&self) -> Option<i64> {
         let s = self.summary.as_ref()?;
         let from_stats = s.stats.as_ref().filter(|st| st.message_count > 0).map(|st| st.message_start_time);
         let from_chunks = s.chunk_indexes.iter().map(|c| c.message_start_time).min();
-        from_stats.or(from_chunks).map(|t| (t.max(self.ctx.start)) as i64)
+        from_stats.or(from_chunks).map(|t| (t.max(self.ctx.loader.start)) as i64)
     }
 
     fn topic(&self, topic: i64) -> Option<TopicDecl> {
@@ -408,6 +499,10 @@ impl<R: Read + Seek> Source for McapSource<R> {
     }
 
     fn advance(&mut self) -> Result<bool, BagError> {
+        if self.want_prefetch {
+            self.want_prefetch = false;
+            self.prefetch()?;
+        }
         match &mut self.mode {
             Mode::Indexed(ix) => self.ctx.advance_indexed(ix),
             Mode::Linear { reader, current, done } => self.ctx.advance_linear(reader, current, done),
@@ -424,11 +519,12 @@ impl<R: Read + Seek> Source for McapSource<R> {
                     topic: i64::from(e.channel),
                     data: &c.buf[e.start as usize..e.end as usize],
                     at: Location::InChunk { chunk: c.offset, record: u64::from(e.record) },
+                    crc: e.crc,
                 })
             }
             Mode::Linear { current, .. } => {
                 let m = current.as_ref()?;
-                Some(Head { log_time: m.log_time as i64, topic: i64::from(m.channel.id), data: &m.data, at: Location::Offset(self.ctx.offset_read) })
+                Some(Head { log_time: m.log_time as i64, topic: i64::from(m.channel.id), data: &m.data, at: Location::Offset(self.ctx.offset_read), crc: self.ctx.linear_crc })
             }
         }
     }

@@ -8,6 +8,7 @@
 //! (same topic, log time and bytes) and log times that go backwards are warnings (errors with
 //! [`ReadOptions::strict`]). Errors name the file, the topic and the offset or row.
 
+use crate::decode::{decoder, DecodeFn};
 use crate::error::{BagError, Warning};
 use crate::mcap_read::McapSource;
 use crate::metadata::Metadata;
@@ -282,6 +283,7 @@ impl Bag {
 struct TopicState {
     name: Arc<str>,
     msg_type: Option<&'static str>,
+    decode: Option<DecodeFn>,
     skip: Option<SkipReason>,
     last: Option<(Nanos, u32)>,
 }
@@ -289,6 +291,8 @@ struct TopicState {
 /// One open file with its topic ids mapped to merged topics.
 struct Active {
     order: usize,
+    /// Log time of the source's current message.
+    time: Nanos,
     source: Box<dyn Source>,
     map: HashMap<i64, usize>,
     /// Fast path for small ids (MCAP channels, sqlite topic ids): `usize::MAX` = unmapped.
@@ -309,15 +313,6 @@ pub struct Messages {
     failed: bool,
 }
 
-fn canonical_type(t: &str) -> Option<&'static str> {
-    if !Msg::is_known_type(t) {
-        return None;
-    }
-    sillage_core::any::DEFINITIONS
-        .iter()
-        .map(|(n, _)| *n)
-        .find(|n| *n == sillage_core::any::normalize_type_name(t).as_ref())
-}
 
 impl Messages {
     /// What the read saw so far (topics, skips, warnings).
@@ -340,7 +335,8 @@ impl Messages {
         if let Some(&g) = self.by_key.get(&key) {
             return Ok(g);
         }
-        let msg_type = canonical_type(&decl.type_name);
+        let found = decoder(&decl.type_name);
+        let msg_type = found.map(|(n, _)| n);
         let mut skip = None;
         if self.opts.topics.as_ref().is_some_and(|t| !t.contains(&decl.name)) {
             skip = Some(SkipReason::NotSelected);
@@ -371,7 +367,7 @@ impl Messages {
             }
         }
         let g = self.topics.len();
-        self.topics.push(TopicState { name: decl.name.as_str().into(), msg_type, skip: skip.clone(), last: None });
+        self.topics.push(TopicState { name: decl.name.as_str().into(), msg_type, decode: found.map(|(_, f)| f), skip: skip.clone(), last: None });
         self.report.topics.push(TopicReport { name: decl.name, type_name: decl.type_name, read: 0, skipped: 0, skip, qos: decl.qos });
         self.by_key.insert(key, g);
         Ok(g)
@@ -412,12 +408,22 @@ impl Messages {
         if let Some((i, _)) = self.current.take() {
             let more = self.active[i].source.advance();
             self.collect_warnings(i);
-            if !more? {
+            if more? {
+                let a = &mut self.active[i];
+                let Some((t, local)) = a.source.head().map(|h| (h.log_time, h.topic)) else { return Ok(None) };
+                a.time = t;
+                // Fast path: one file open and the next one starts later.
+                if self.active.len() == 1 && self.pending.last().is_none_or(|p| p.0 > t) {
+                    let g = self.global_topic(i, local)?;
+                    self.current = Some((i, g));
+                    return Ok(Some((i, g)));
+                }
+            } else {
                 self.active.swap_remove(i);
             }
         }
         loop {
-            let min = self.active.iter().filter_map(|a| a.source.head().map(|h| h.log_time)).min();
+            let min = self.active.iter().map(|a| a.time).min();
             let open_next = match self.pending.last() {
                 Some((t, _, _)) => min.is_none_or(|m| *t <= m),
                 None => false,
@@ -432,17 +438,12 @@ impl Messages {
                     self.report.warn(w);
                 }
                 if more? {
-                    self.active.push(Active { order, source, map: HashMap::new(), small: Vec::new() });
+                    let time = source.head().map_or(Nanos::MIN, |h| h.log_time);
+                    self.active.push(Active { order, time, source, map: HashMap::new(), small: Vec::new() });
                 }
             }
         }
-        let best = self
-            .active
-            .iter()
-            .enumerate()
-            .filter_map(|(i, a)| a.source.head().map(|h| (h.log_time, a.order, i)))
-            .min()
-            .map(|(_, _, i)| i);
+        let best = self.active.iter().enumerate().map(|(i, a)| (a.time, a.order, i)).min().map(|(_, _, i)| i);
         let Some(i) = best else { return Ok(None) };
         let Some(local) = self.active[i].source.head().map(|h| h.topic) else { return Ok(None) };
         let g = self.global_topic(i, local)?;
@@ -460,7 +461,7 @@ impl Messages {
                 self.report.topics[g].skipped += 1;
                 continue;
             }
-            let crc = crc32fast::hash(h.data);
+            let crc = h.crc;
             if t.last == Some((h.log_time, crc)) {
                 self.report.topics[g].skipped += 1;
                 self.report.duplicates += 1;
@@ -521,7 +522,11 @@ impl Messages {
         let Some(h) = self.active[i].source.head() else { return Ok(None) };
         let t = &self.topics[g];
         let type_name = t.msg_type.unwrap_or("");
-        match Msg::decode(type_name, h.data) {
+        let decoded = match t.decode {
+            Some(f) => f(h.data),
+            None => Msg::decode(type_name, h.data),
+        };
+        match decoded {
             Ok(msg) => {
                 self.report.topics[g].read += 1;
                 Ok(Some(BagMessage { log_time: h.log_time, topic: t.name.clone(), type_name, msg }))

@@ -32,6 +32,8 @@ pub struct Head<'a> {
     pub data: &'a [u8],
     /// Where the message is in the file.
     pub at: Location,
+    /// CRC-32 of `data` (duplicate detection).
+    pub crc: u32,
 }
 
 /// A cursor over one storage file.

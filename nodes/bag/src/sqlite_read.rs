@@ -22,6 +22,7 @@ struct Row {
     topic: i64,
     time: i64,
     data: Vec<u8>,
+    crc: u32,
 }
 
 type Batch = Result<Vec<Row>, String>;
@@ -135,11 +136,13 @@ impl SqliteSource {
                 let mut rows = st.query([start, end]).map_err(|e| e.to_string())?;
                 let mut batch = Vec::with_capacity(BATCH);
                 while let Some(r) = rows.next().map_err(|e| e.to_string())? {
+                    let data = r.get::<_, Option<Vec<u8>>>(3).map_err(|e| e.to_string())?.unwrap_or_default();
                     let row = Row {
                         id: r.get(0).map_err(|e| e.to_string())?,
                         topic: r.get(1).map_err(|e| e.to_string())?,
                         time: r.get(2).map_err(|e| e.to_string())?,
-                        data: r.get::<_, Option<Vec<u8>>>(3).map_err(|e| e.to_string())?.unwrap_or_default(),
+                        crc: crc32fast::hash(&data),
+                        data,
                     };
                     batch.push(row);
                     if batch.len() == BATCH && tx.send(Ok(std::mem::replace(&mut batch, Vec::with_capacity(BATCH)))).is_err() {
@@ -204,6 +207,6 @@ impl Source for SqliteSource {
 
     fn head(&self) -> Option<Head<'_>> {
         let r = self.batch.get(self.pos)?;
-        Some(Head { log_time: r.time, topic: r.topic, data: &r.data, at: Location::Row(r.id) })
+        Some(Head { log_time: r.time, topic: r.topic, data: &r.data, at: Location::Row(r.id), crc: r.crc })
     }
 }

@@ -7,20 +7,20 @@ use sillage_bag::{Bag, ReadOptions};
 use std::path::PathBuf;
 
 fn committed() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../tests/fixtures/demo/workshop_crossing")
+    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../tests/fixtures/demo/demo_bag")
 }
 
 #[test]
 fn generator_reproduces_the_committed_demo_bag_byte_for_byte() {
     let tmp = std::env::temp_dir().join(format!("sillage-demo-{}", std::process::id()));
-    let dir = tmp.join("workshop_crossing");
+    let dir = tmp.join("demo_bag");
     demo_scenario::write_demo(&dir, demo_scenario::SEED, demo_scenario::DURATION_S, true).expect("writes");
-    for f in ["workshop_crossing_0.mcap", "metadata.yaml"] {
+    for f in ["demo_bag_0.mcap", "metadata.yaml"] {
         let fresh = std::fs::read(dir.join(f)).expect("fresh file");
         let kept = std::fs::read(committed().join(f)).expect("committed file (run the make_demo_bag example)");
         assert!(fresh == kept, "{f} differs from the committed one: regenerate with the make_demo_bag example");
     }
-    let size = std::fs::metadata(committed().join("workshop_crossing_0.mcap")).expect("exists").len();
+    let size = std::fs::metadata(committed().join("demo_bag_0.mcap")).expect("exists").len();
     assert!(size < 2_000_000, "demo bag is {size} bytes");
     let _ = std::fs::remove_dir_all(&tmp);
 }

@@ -6,7 +6,7 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 
 fn demo() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../tests/fixtures/demo/workshop_crossing")
+    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../tests/fixtures/demo/demo_bag")
 }
 
 fn tmp(name: &str) -> PathBuf {
@@ -81,7 +81,7 @@ fn a_corrupt_chunk_stops_the_replay_but_the_output_is_closed_and_says_so() {
     let dir = tmp("corrupt");
     let bagdir = dir.join("broken");
     std::fs::create_dir_all(&bagdir).expect("mkdir");
-    let src = demo().join("workshop_crossing_0.mcap");
+    let src = demo().join("demo_bag_0.mcap");
     let mut bytes = std::fs::read(&src).expect("demo");
     // Corrupt the middle of the second chunk's compressed data.
     let s = sillage_bag::mcap_read::McapSource::open(&src, 0, i64::MAX).expect("opens");
