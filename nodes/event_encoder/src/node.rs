@@ -77,6 +77,8 @@ pub struct EventEncoder {
     pub(crate) last_change: Option<(Nanos, String)>,
     crossings: Vec<Crossing>,
     pending: Vec<Pending>,
+    /// Sample stamp of the last published array (heartbeat bookkeeping).
+    last_published: Option<Nanos>,
 }
 
 impl EventEncoder {
@@ -93,6 +95,7 @@ impl EventEncoder {
             last_error: None,
             last_change: None,
             crossings: Vec::new(),
+            last_published: None,
             pending: Vec::new(),
         })
     }
@@ -155,7 +158,10 @@ impl EventEncoder {
             }
         }
         self.step_channels(now, t, s);
-        if !self.pending.is_empty() {
+        let heartbeat = sillage_core::time::nanos(self.params.heartbeat);
+        let due = heartbeat > 0 && self.last_published.is_none_or(|p| t.saturating_sub(p) >= heartbeat || t < p);
+        if !self.pending.is_empty() || due {
+            self.last_published = Some(t);
             self.publish(s, out);
         }
     }

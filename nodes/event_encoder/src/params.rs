@@ -33,6 +33,10 @@ pub struct Params {
     pub warn_interval: f64,
     /// Most channels tracked at once (channels gone from the set are forgotten first); 1..=65536.
     pub max_channels: u32,
+    /// Liveness: when no event array went out for this long (sample time), an accepted sample
+    /// without crossings publishes an empty array, so subscribers' watchdogs can tell a quiet
+    /// channel from a dead encoder [s]; 0 = publish only arrays with events; >= 0.
+    pub heartbeat: f64,
 }
 
 impl Default for Params {
@@ -45,6 +49,7 @@ impl Default for Params {
             backward_reset: 1.0,
             warn_interval: 10.0,
             max_channels: 64,
+            heartbeat: 0.25,
         }
     }
 }
@@ -61,6 +66,7 @@ impl NodeParams for Params {
         ensure(self.stale_timeout.is_finite() && self.stale_timeout > 0.0, "stale_timeout", "must be > 0 [s]")?;
         ensure(self.backward_reset.is_finite() && self.backward_reset > 0.0, "backward_reset", "must be > 0 [s]")?;
         ensure(self.warn_interval.is_finite() && self.warn_interval >= 0.0, "warn_interval", "must be >= 0 [s]")?;
+        ensure(self.heartbeat.is_finite() && self.heartbeat >= 0.0, "heartbeat", "must be >= 0 [s]")?;
         ensure((1..=65_536).contains(&self.max_channels), "max_channels", "must be in 1..=65536")
     }
 }

@@ -16,7 +16,13 @@ fn sample(t: Nanos, names: &[&str], values: &[f64], quantity: u8) -> ChemSample 
     }
 }
 
+/// The arrays with events a sample produced (heartbeat arrays, which are empty, left out).
 fn feed(e: &mut EventEncoder, s: ChemSample) -> Vec<OdorEventArray> {
+    feed_all(e, s).into_iter().filter(|a| !a.events.is_empty()).collect()
+}
+
+/// Every array a sample produced, heartbeats included.
+fn feed_all(e: &mut EventEncoder, s: ChemSample) -> Vec<OdorEventArray> {
     let mut out = Outbox::new();
     let t = s.header.stamp.to_nanos();
     e.on_message(t, 0, &Msg::ChemSample(s), &mut out);
@@ -224,4 +230,25 @@ fn the_stack_builds_the_node_from_the_shipped_file() {
     assert_eq!(e.inputs()[0].type_name, "sillage_msgs/msg/ChemSample");
     assert_eq!(e.outputs()[0].type_name, "sillage_msgs/msg/OdorEventArray");
     assert!(e.timers().is_empty());
+}
+
+#[test]
+fn quiet_channels_send_empty_heartbeat_arrays_at_the_set_period() {
+    // 100 Hz of a constant signal for 2 s: no crossings, so only heartbeats (every 0.25 s of
+    // sample time, the first sample included) go out.
+    let mut e = concentration_encoder();
+    let mut arrays = Vec::new();
+    for k in 0..200i64 {
+        arrays.extend(feed_all(&mut e, sample(k * 10 * MS, &["a"], &[0.5], PPM)));
+    }
+    assert!(arrays.iter().all(|a| a.events.is_empty()));
+    assert_eq!(arrays.len(), 8, "t = 0, 0.25, ..., 1.75 s");
+    let stamps: Vec<Nanos> = arrays.iter().map(|a| a.header.stamp.to_nanos()).collect();
+    assert!(stamps.windows(2).all(|w| w[1] - w[0] == 250 * MS), "{stamps:?}");
+    // Off: nothing at all.
+    let mut p = e.params().clone();
+    p.heartbeat = 0.0;
+    let mut quiet = EventEncoder::new(p).expect("valid");
+    let n: usize = (0..200i64).map(|k| feed_all(&mut quiet, sample(k * 10 * MS, &["a"], &[0.5], PPM)).len()).sum();
+    assert_eq!(n, 0);
 }

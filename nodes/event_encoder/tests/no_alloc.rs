@@ -64,6 +64,7 @@ fn channel_step_allocates_nothing_after_warm_up() {
 fn node_samples_without_events_allocate_nothing() {
     let mut p = Params::default();
     p.encoding.delta = 10.0; // no event from this signal: no message to allocate
+    p.heartbeat = 0.0; // heartbeat arrays are messages too
     let mut e = EventEncoder::new(p).expect("valid");
     let mut out = Outbox::new();
     let mut msg = Msg::ChemSample(ChemSample {
