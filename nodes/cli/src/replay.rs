@@ -119,6 +119,11 @@ pub fn run(args: Args) -> Result<()> {
     if let Some(b) = &bar {
         b.finish_and_clear();
     }
+    if outcome.injected == 0 && outcome.error.is_none() {
+        let mut want: Vec<String> = inputs.inject.iter().map(|(t, ty)| format!("{t} ({ty})")).collect();
+        want.sort();
+        eprintln!("warning: no bag message fed the graph; it reads {} (use --remap or --namespace)", want.join(", "));
+    }
     collector.finish();
     let written = writer.finish();
     let wall = started.elapsed().as_secs_f64();

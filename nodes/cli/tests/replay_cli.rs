@@ -117,3 +117,23 @@ fn bag_info_lists_topics_counts_and_storage() {
     let text = String::from_utf8_lossy(&o.stdout);
     assert!(text.contains("sqlite3") && text.contains("/chatter") && text.contains("not used by sillage"), "{text}");
 }
+
+#[test]
+fn remaps_and_namespaces_move_the_graph_inputs() {
+    let out = tmp("remap");
+    let o = sillage(&[
+        "replay", demo().to_str().expect("utf-8"), "--out", out.to_str().expect("utf-8"), "--quiet", "--no-plots",
+        "--remap", "wind:=/anemometer", "--duration", "2",
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let s: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).expect("summary")).expect("json");
+    let skipped = |t: &str| s["skipped"].as_array().expect("skipped").iter().find(|x| x["topic"] == t).map(|x| x["reason"].as_str().unwrap_or("").to_string());
+    // /wind is no longer an input; /chem still is.
+    assert_eq!(skipped("/wind").as_deref(), Some("no node subscribes to it"));
+    assert!(skipped("/chem").is_none());
+    let o = sillage(&["replay", demo().to_str().expect("utf-8"), "--out", out.to_str().expect("utf-8"), "--quiet", "--no-plots", "--namespace", "r1", "--duration", "2"]);
+    assert!(o.status.success());
+    let s: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).expect("summary")).expect("json");
+    assert_eq!(s["injected"], 0, "in namespace /r1 the graph reads /r1/chem, which the bag lacks");
+    let _ = std::fs::remove_dir_all(&out);
+}
