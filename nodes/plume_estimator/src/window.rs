@@ -4,7 +4,8 @@
 //! bins (the bin closes at each output tick, so on a steady timer the window is exactly
 //! `window` seconds; grid samples count in the bin open when they are processed). Each bin
 //! holds, per channel, the accepted bouts (count and summed amplitude), the time with odor
-//! present, the time with valid data, and sums of the transformed signal for its std/mean.
+//! present, the time with valid data, and sums of the linear sensor response for its std/mean
+//! (see [`crate::conditioning`]).
 //! Nothing allocates after the ring is created.
 //!
 //! Features of a window (per channel; rates use the *valid* time, so a gap lowers coverage
@@ -19,9 +20,12 @@
 //!   the crosswind offset from the plume centreline: near the edge contact comes in clusters,
 //!   so counts vary more between sub-windows (a Poisson train gives about
 //!   `1 / sqrt(rate * sub_window)`);
-//! - `std_over_mean`: standard deviation over mean of the transformed (not baseline-removed)
-//!   signal over the window, the proximity indicator of "Indicators of gas source proximity
-//!   using metal oxide sensors in a turbulent environment" (2006); NaN unless the mean is > 0.
+//! - `std_over_mean`: standard deviation over mean of the linear sensor response (before
+//!   baseline removal; per sample) over the window, the proximity indicator of "Indicators of
+//!   gas source proximity using metal oxide sensors in a turbulent environment" (2006), which
+//!   found std/mean a better proximity indicator than the mean or the std alone (as summarised
+//!   in shared/references.md); NaN unless the mean is > 0. Diagnostics only (PlumeFeatures has
+//!   no field for it).
 //!
 //! Pooled over channels ("combined", what PlumeFeatures carries): every channel's bouts,
 //! valid time, presence time and sub-window counts are summed before dividing, so the pooled

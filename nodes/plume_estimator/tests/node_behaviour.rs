@@ -222,6 +222,12 @@ fn parameters_validate_change_at_run_time_and_load_from_the_default_file() {
     let text = std::fs::read_to_string(path).expect("config/plume_estimator.yaml");
     let p: Params = load_str(&text, path, &format!("/{NODE_NAME}")).expect("loads");
     assert_eq!(p, Params::default());
+    // ... and sets every parameter (so it documents every one).
+    let doc: serde_yaml::Value = serde_yaml::from_str(&text).expect("yaml");
+    let section = sillage_core::params::section_for(&doc, path, &format!("/{NODE_NAME}")).expect("section");
+    let keys = |v: &serde_yaml::Value| sillage_core::params::flatten(v).into_iter().map(|(k, _)| k).collect::<std::collections::BTreeSet<_>>();
+    let missing: Vec<String> = keys(&sillage_core::params::to_value(&Params::default())).difference(&keys(&section)).cloned().collect();
+    assert!(missing.is_empty(), "config/plume_estimator.yaml lacks {missing:?}");
 }
 
 proptest! {
