@@ -8,7 +8,9 @@
 //!   position and twist; an orientation whose quaternion norm is within 10 % of 1.
 //! - `odor_bearing`: frame `frames.base` (or empty); `cue` <= NONE; unless NONE, a finite
 //!   bearing and a confidence in [0, 1].
-//! - `plume_features`: finite bout rate >= 0, intermittency in [0, 1]; distance NaN
+//! - `plume_features`: bout rate finite >= 0 and intermittency in [0, 1], or NaN for "not
+//!   known yet" (the estimator's window is still filling: such a message keeps the watchdog
+//!   fed but is no evidence of contact, since every comparison with NaN fails); distance NaN
 //!   (uncalibrated) or finite >= 0; sigma not negative (NaN or +inf: distance unusable).
 //! - `odor_events`: every polarity is +1 or -1.
 //! - `scan`: finite non-zero `angle_increment`, finite `angle_min`, `0 <= range_min <
@@ -210,11 +212,11 @@ pub fn bearing(m: &OdorBearing, frames: &Frames) -> Result<BearingObs, ArbiterEr
 /// Checks plume features.
 pub fn features(m: &PlumeFeatures) -> Result<FeaturesObs, ArbiterError> {
     let t = Input::PlumeFeatures.topic();
-    if !(m.bout_rate.is_finite() && m.bout_rate >= 0.0) {
-        return Err(ArbiterError::field(t, "bout_rate", m.bout_rate, "not a finite rate >= 0"));
+    if !(m.bout_rate.is_nan() || (m.bout_rate.is_finite() && m.bout_rate >= 0.0)) {
+        return Err(ArbiterError::field(t, "bout_rate", m.bout_rate, "neither NaN (not known yet) nor a finite rate >= 0"));
     }
-    if !(m.intermittency.is_finite() && (0.0..=1.0).contains(&m.intermittency)) {
-        return Err(ArbiterError::field(t, "intermittency", m.intermittency, "not in [0, 1]"));
+    if !(m.intermittency.is_nan() || (0.0..=1.0).contains(&m.intermittency)) {
+        return Err(ArbiterError::field(t, "intermittency", m.intermittency, "neither NaN (not known yet) nor in [0, 1]"));
     }
     if !(m.distance.is_nan() || (m.distance.is_finite() && m.distance >= 0.0)) {
         return Err(ArbiterError::field(t, "distance", m.distance, "neither NaN (uncalibrated) nor a finite distance >= 0"));
@@ -390,6 +392,12 @@ mod tests {
         assert!((odom(&o, &f).expect("5 % off is accepted").pose.yaw - 1.0).abs() < 1e-12);
         let pf = PlumeFeatures { intermittency: 1.5, ..Default::default() };
         assert!(features(&pf).expect_err("range").to_string().contains("intermittency"));
+        let pf = PlumeFeatures { bout_rate: f64::INFINITY, ..Default::default() };
+        assert!(features(&pf).expect_err("range").to_string().contains("bout_rate"));
+        // A filling window: NaN rate and intermittency are accepted, and are no contact.
+        let warm = PlumeFeatures { bout_rate: f64::NAN, intermittency: f64::NAN, distance: f64::NAN, distance_sigma: f64::NAN, ..Default::default() };
+        let obs = features(&warm).expect("NaN means not known yet");
+        assert!(!(obs.bout_rate >= 0.0) && !(obs.intermittency >= 0.0));
         let ok = PlumeFeatures { bout_rate: 1.0, distance: f64::NAN, distance_sigma: f64::NAN, ..Default::default() };
         assert_eq!(features(&ok).map(|f| f.distance), Ok(None));
     }
