@@ -97,18 +97,31 @@ pub fn correlate(a: &[Nanos], b: &[Nanos], bin: Nanos, k_max: i64, counts: &mut 
 /// Fills `out` with `counts` smoothed by the triangular kernel of half-width `w` [bins]
 /// (zero padding at the ends; the output has the length of `counts`).
 pub fn smooth(counts: &[u32], w: i64, out: &mut Vec<u32>) {
-    let w = w.max(0);
-    let n = counts.len() as i64;
+    smooth_with(counts, w, &mut Vec::new(), out);
+}
+
+/// [`smooth`] in O(n) with a caller-owned prefix-sum buffer: moving the kernel one bin right
+/// adds the box `(k, k + w + 1]` and removes the box `[k - w, k]`.
+pub fn smooth_with(counts: &[u32], w: i64, prefix: &mut Vec<u64>, out: &mut Vec<u32>) {
+    let w = w.max(0) as usize;
+    let n = counts.len();
     out.clear();
-    out.resize(counts.len(), 0);
-    for (i, &c) in counts.iter().enumerate() {
-        if c == 0 {
-            continue;
-        }
-        let i = i as i64;
-        for k in (i - w).max(0)..=(i + w).min(n - 1) {
-            out[k as usize] += c * (w + 1 - (k - i).abs()) as u32;
-        }
+    if n == 0 {
+        return;
+    }
+    prefix.clear();
+    prefix.push(0);
+    let mut acc = 0u64;
+    for &c in counts {
+        acc += u64::from(c);
+        prefix.push(acc);
+    }
+    let box_sum = |lo: usize, hi: usize| prefix[hi.min(n)] - prefix[lo.min(n)]; // sum of [lo, hi)
+    let mut s: u64 = counts.iter().take(w + 1).enumerate().map(|(i, &c)| (w + 1 - i) as u64 * u64::from(c)).sum();
+    out.push(s as u32);
+    for k in 0..n - 1 {
+        s = s + box_sum(k + 1, k + w + 2) - box_sum(k.saturating_sub(w), k + 1);
+        out.push(s as u32);
     }
 }
 
@@ -164,6 +177,7 @@ pub fn median_sorting(v: &mut [f64]) -> Option<f64> {
 pub struct LagEstimator {
     counts: Vec<u32>,
     smoothed: Vec<u32>,
+    prefix: Vec<u64>,
     lags: Vec<f64>,
     devs: Vec<f64>,
 }
@@ -189,7 +203,7 @@ impl LagEstimator {
     pub fn estimate(&mut self, a: &[Nanos], b: &[Nanos], s: &LagSettings) -> Option<LagEstimate> {
         let bin = s.bin.max(1);
         correlate(a, b, bin, s.k_max, &mut self.counts);
-        smooth(&self.counts, s.kernel, &mut self.smoothed);
+        smooth_with(&self.counts, s.kernel, &mut self.prefix, &mut self.smoothed);
         let (k, peak_count) = peak(&self.smoothed, s.k_max.max(0))?;
         let center = k * bin;
         self.lags.clear();
@@ -289,6 +303,17 @@ mod tests {
             let mut c = Vec::new();
             correlate(&a, &b, bin, k_max, &mut c);
             prop_assert_eq!(c, dense(&a, &b, bin, k_max));
+        }
+
+        #[test]
+        fn fast_smoothing_equals_the_kernel_sum(counts in proptest::collection::vec(0u32..5, 0..60), w in 0i64..12) {
+            let mut fast = Vec::new();
+            smooth(&counts, w, &mut fast);
+            let n = counts.len() as i64;
+            let direct: Vec<u32> = (0..n)
+                .map(|k| (-w..=w).filter(|j| (0..n).contains(&(k + j))).map(|j| counts[(k + j) as usize] * (w + 1 - j.abs()) as u32).sum())
+                .collect();
+            prop_assert_eq!(fast, direct);
         }
 
         #[test]
