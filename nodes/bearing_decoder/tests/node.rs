@@ -258,6 +258,34 @@ fn amplitude_alone_and_fused_with_timing() {
 }
 
 #[test]
+fn amplitude_from_mox_resistance_through_the_default_conditioning() {
+    // Default conditioning: log-conductance minus a slow baseline. 10 s of clean air at
+    // 10 kOhm, then the left sensor falls to 7 kOhm and the right to 9 kOhm: responses
+    // ln(10/7) = 0.357 and ln(10/9) = 0.105, contrast 0.545 > saturation 0.5: fully left.
+    let mut d = Drive::new(Params::default());
+    d.send(0, IN_WIND, wind(0.0, 0.5, ""));
+    let sample = |t: Nanos, l: f64, r: f64| ChemSample {
+        header: Header::new(t, "chem"),
+        channels: vec!["left".into(), "right".into()],
+        values: vec![l, r],
+        quantity: ChemSample::RESISTANCE,
+    };
+    let mut t = 0;
+    for k in 0..1500 {
+        t = k * 10 * MS;
+        let (l, r) = if t < 10 * S { (10e3, 10e3) } else { (7e3, 9e3) };
+        d.send(t, IN_CHEM, sample(t, l, r));
+    }
+    d.send(t, IN_WIND, wind(0.0, 0.5, ""));
+    let b = d.tick(t);
+    assert_eq!(b.cue, OdorBearing::AMPLITUDE, "{b:?}");
+    assert!((b.bearing - 90.0 * DEG).abs() < 1e-6, "{}", b.bearing / DEG);
+    let a = d.node.last_estimate().and_then(|e| e.amplitude.clone()).expect("amplitude on").expect("cue");
+    assert!((a.contrast.y - 0.545).abs() < 0.01, "{a:?}");
+    assert_eq!(d.node.warnings().total(), 0);
+}
+
+#[test]
 fn bad_input_is_counted_and_says_none_without_panicking() {
     let mut d = Drive::new(Params::default());
     // Out of order on one channel, bad polarity.
