@@ -4,8 +4,9 @@
 //! Each turn of the loop waits (mio) until a subscription has data, a discovery event comes,
 //! or the next timer is due (at most [`MAX_WAIT`]); then it handles discovery events first (so
 //! a writer of the wrong type is known before its first sample), takes samples round-robin,
-//! [`BATCH`] per subscription and pass, at most [`PASSES`] passes (a flooded topic cannot
-//! starve the e-stop or the timers), fires the due timers and logs what the engine reported.
+//! latched subscriptions (the e-stop) first, [`BATCH`] per subscription and pass, at most
+//! [`PASSES`] passes (a flooded topic cannot starve the e-stop or the timers), fires the due
+//! timers and logs what the engine reported.
 //! Samples of this process's own writers are skipped: the engine delivered them already.
 
 pub mod raw;
@@ -75,10 +76,12 @@ fn handle_event(ev: Ev, t: &DdsTransport, engine: &mut Engine) {
 /// Takes samples round-robin; returns whether some subscription may still have data.
 fn take_inputs(t: &mut DdsTransport, engine: &mut Engine, start: Instant) -> bool {
     t.drain_notifications();
-    let n = engine.inputs().len();
+    // Latched inputs (the e-stop) first in every pass: a stop must not wait behind a flood.
+    let mut order: Vec<usize> = (0..engine.inputs().len()).collect();
+    order.sort_by_key(|&i| engine.inputs()[i].class != Some(sillage_core::Qos::Latched));
     for _ in 0..PASSES {
         let mut more = false;
-        for i in 0..n {
+        for &i in &order {
             let mut taken = 0;
             while taken < BATCH {
                 let (writer, raw) = match t.take(i) {
