@@ -184,11 +184,20 @@ impl Bag {
             if !m.storage_identifier.is_empty() && !["mcap", "sqlite3"].contains(&m.storage_identifier.as_str()) {
                 return Err(BagError::UnsupportedStorage { path: meta_path, storage: m.storage_identifier });
             }
-            if m.compression_mode == "file" {
-                return Err(BagError::Metadata {
-                    path: meta_path,
-                    reason: format!("files are compressed whole ({}); decompress them first", m.compression_format),
-                });
+            match m.compression_mode.to_lowercase().as_str() {
+                "file" => {
+                    return Err(BagError::Metadata {
+                        path: meta_path,
+                        reason: format!("files are compressed whole ({}); decompress them first (ros2 bag convert)", m.compression_format),
+                    })
+                }
+                "message" => {
+                    return Err(BagError::Metadata {
+                        path: meta_path,
+                        reason: format!("messages are compressed one by one ({}); not supported, convert the bag first (ros2 bag convert)", m.compression_format),
+                    })
+                }
+                _ => {}
             }
             for rel in &m.relative_file_paths {
                 let p = path.join(rel);
