@@ -22,7 +22,8 @@ pub struct Drained {
 /// whose channel declares a vocabulary type.
 pub fn drain_mcap(data: &[u8], limit: usize) -> Drained {
     let mut out = Drained::default();
-    let mut src = match McapSource::new(Path::new("fuzz.mcap"), std::io::Cursor::new(data), 0, i64::MAX) {
+    // A 16 MiB record limit keeps runs fast; the reader's default is 1 GiB.
+    let mut src = match McapSource::with_limit(Path::new("fuzz.mcap"), std::io::Cursor::new(data), 0, i64::MAX, 16 << 20) {
         Ok(s) => s,
         Err(e) => {
             out.error = Some(e.to_string());

@@ -84,6 +84,8 @@ struct ChunkLoader<R> {
     file_len: u64,
     start: u64,
     end: u64,
+    /// Largest chunk accepted [bytes].
+    limit: u64,
 }
 
 /// The file and what is known about it.
@@ -125,10 +127,9 @@ fn decl_of(ch: &mcap::Channel<'_>) -> TopicDecl {
 
 /// Reads the summary section; `Ok(None)` when the file has none or it cannot be read (the
 /// reason is returned for a warning).
-fn read_summary<R: Read + Seek>(file: &mut R, len: u64) -> Result<Option<mcap::Summary>, String> {
-    let mut reader = SummaryReader::new_with_options(
-        SummaryReaderOptions::default().with_file_size(len).with_record_length_limit(MAX_CHUNK_BYTES as usize),
-    );
+fn read_summary<R: Read + Seek>(file: &mut R, len: u64, limit: u64) -> Result<Option<mcap::Summary>, String> {
+    let mut reader =
+        SummaryReader::new_with_options(SummaryReaderOptions::default().with_file_size(len).with_record_length_limit(limit as usize));
     while let Some(event) = reader.next_event() {
         match event.map_err(|e| e.to_string())? {
             SummaryReadEvent::ReadRequest(n) => {
@@ -165,7 +166,7 @@ impl<R: Read + Seek> McapSource<R> {
         }
         let l = &self.ctx.loader;
         let f = std::fs::File::open(&l.path).map_err(|e| BagError::io(&l.path, e))?;
-        let mut loader = ChunkLoader { path: l.path.clone(), file: std::io::BufReader::with_capacity(1 << 16, f), file_len: l.file_len, start: l.start, end: l.end };
+        let mut loader = ChunkLoader { path: l.path.clone(), file: std::io::BufReader::with_capacity(1 << 16, f), file_len: l.file_len, start: l.start, end: l.end, limit: l.limit };
         let chunks = ix.chunks.clone();
         let (tx, rx) = sync_channel(PREFETCH);
         let (spare_tx, spare_rx) = sync_channel::<Vec<u8>>(PREFETCH + 2);
@@ -185,7 +186,12 @@ impl<R: Read + Seek> McapSource<R> {
     }
 
     /// A cursor over MCAP bytes from `file`; `path` labels errors.
-    pub fn new(path: &Path, mut file: R, start: i64, end: i64) -> Result<Self, BagError> {
+    pub fn new(path: &Path, file: R, start: i64, end: i64) -> Result<Self, BagError> {
+        McapSource::with_limit(path, file, start, end, MAX_CHUNK_BYTES)
+    }
+
+    /// As [`McapSource::new`], refusing records and chunks larger than `limit` bytes.
+    pub fn with_limit(path: &Path, mut file: R, start: i64, end: i64, limit: u64) -> Result<Self, BagError> {
         let path = path.to_path_buf();
         let io = |e| BagError::io(&path, e);
         let file_len = file.seek(SeekFrom::End(0)).map_err(io)?;
@@ -195,7 +201,7 @@ impl<R: Read + Seek> McapSource<R> {
             return Err(mcap_err(&path, Location::Offset(0), "bad magic (not an MCAP file)"));
         }
         let mut warnings = Vec::new();
-        let summary = match read_summary(&mut file, file_len) {
+        let summary = match read_summary(&mut file, file_len, limit) {
             Ok(s) => s,
             Err(reason) => {
                 warnings.push(format!("{}: no usable summary ({reason}); reading the file front to back", path.display()));
@@ -221,12 +227,12 @@ impl<R: Read + Seek> McapSource<R> {
             _ => {
                 file.seek(SeekFrom::Start(0)).map_err(io)?;
                 let opts = mcap::sans_io::LinearReaderOptions::default()
-                    .with_record_length_limit(MAX_CHUNK_BYTES as usize)
+                    .with_record_length_limit(limit as usize)
                     .with_validate_chunk_crcs(true);
                 Mode::Linear { reader: Box::new(MessageReader::new_with_options(opts)), current: None, done: false }
             }
         };
-        let loader = ChunkLoader { path, file, file_len, start, end };
+        let loader = ChunkLoader { path, file, file_len, start, end, limit };
         let ctx = FileCtx { loader, channels, warnings, offset_read: 0, linear_crc: 0 };
         Ok(McapSource { ctx, summary, mode, want_prefetch: false })
     }
@@ -249,7 +255,7 @@ impl<R: Read + Seek> ChunkLoader<R> {
         let at = Location::Chunk(ci.chunk_start_offset);
         let bad = |reason: String| mcap_err(path, at.clone(), reason);
         let end = ci.chunk_start_offset.checked_add(ci.chunk_length).filter(|&e| e <= self.file_len);
-        if end.is_none() || ci.chunk_length < 9 || ci.chunk_length > MAX_CHUNK_BYTES {
+        if end.is_none() || ci.chunk_length < 9 || ci.chunk_length > self.limit {
             return Err(bad(format!("chunk index points outside the file (length {})", ci.chunk_length)));
         }
         raw.resize(ci.chunk_length as usize, 0);
@@ -263,8 +269,8 @@ impl<R: Read + Seek> ChunkLoader<R> {
             Ok(_) => return Err(bad("not a chunk record".into())),
             Err(e) => return Err(bad(e.to_string())),
         };
-        if header.uncompressed_size > MAX_CHUNK_BYTES {
-            return Err(bad(format!("uncompressed size {} is larger than the {MAX_CHUNK_BYTES}-byte limit", header.uncompressed_size)));
+        if header.uncompressed_size > self.limit {
+            return Err(bad(format!("uncompressed size {} is larger than the {}-byte limit", header.uncompressed_size, self.limit)));
         }
         let size = header.uncompressed_size as usize;
         buf.clear();
