@@ -1,13 +1,147 @@
-//! `sillage tune` (not built yet: its issue is open).
+//! `sillage tune SWEEP [--jobs J] [--out DIR] [--shard I/N]`: evaluates every point of a sweep
+//! file (docs/tuning.md) against the simulator, in parallel, streaming one JSON line per
+//! finished episode to `DIR/results.jsonl`; a rerun with the same folder skips what is there,
+//! so an interrupted sweep resumes. Then ranks the points (95 % intervals over seeds) and
+//! writes `ranking.csv`, `ranking.json`, `best_params.yaml` and `plots/`.
+//!
+//! `--shard I/N` runs a deterministic slice (units numbered point-major, those equal to I
+//! modulo N), so a batch scheduler can spread one sweep over machines; `sillage tune merge
+//! DIR... [--out DIR]` joins their folders and writes the same outputs as one run would.
+
+#[path = "tune_report.rs"]
+mod report;
+#[path = "tune_sim.rs"]
+mod sim_eval;
+
+use anyhow::{Context, Result};
+use indicatif::{ProgressBar, ProgressStyle};
+use sillage_tune::rank::rank;
+use sillage_tune::results::{self, read_records, ResultsFile};
+use sillage_tune::run::{run_sweep, Shard};
+use sillage_tune::LoadedSweep;
+use std::path::{Path, PathBuf};
 
 /// Arguments of `sillage tune`.
 #[derive(clap::Args)]
+#[command(args_conflicts_with_subcommands = true, subcommand_negates_reqs = true)]
 pub struct Args {
-    /// Inputs.
-    pub inputs: Vec<std::path::PathBuf>,
+    /// `merge DIR...`: join the folders of a sharded sweep.
+    #[command(subcommand)]
+    pub command: Option<Command>,
+    /// The sweep file (YAML).
+    #[arg(required = true)]
+    pub sweep: Option<PathBuf>,
+    /// Parallel episodes (default: every core).
+    #[arg(long, short)]
+    pub jobs: Option<usize>,
+    /// Output folder (default: out/tune-<sweep name>, with -shard-I-of-N for a shard).
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// Run only this slice of the sweep, I/N with 0 <= I < N.
+    #[arg(long, value_name = "I/N")]
+    pub shard: Option<String>,
+    /// Do not draw the sensitivity plots.
+    #[arg(long)]
+    pub no_plots: bool,
+    /// No progress bar.
+    #[arg(long)]
+    pub quiet: bool,
+}
+
+/// `sillage tune` subcommands.
+#[derive(clap::Subcommand)]
+pub enum Command {
+    /// Join the result folders of the shards of one sweep, then rank and write the outputs.
+    Merge {
+        /// Shard output folders.
+        #[arg(required = true)]
+        dirs: Vec<PathBuf>,
+        /// Output folder (default: out/tune-<sweep name>-merged).
+        #[arg(long)]
+        out: Option<PathBuf>,
+        /// Do not draw the sensitivity plots.
+        #[arg(long)]
+        no_plots: bool,
+    },
 }
 
 /// Runs the subcommand.
-pub fn run(_args: Args) -> anyhow::Result<()> {
-    anyhow::bail!("'sillage tune' is not available in this build yet")
+pub fn run(args: Args) -> Result<()> {
+    if let Some(Command::Merge { dirs, out, no_plots }) = args.command {
+        return merge(&dirs, out, no_plots);
+    }
+    let path = args.sweep.context("a sweep file is needed")?;
+    let sweep = LoadedSweep::load(&path, sim_eval::METRICS)?;
+    let shard = match &args.shard {
+        Some(s) => Shard::parse(s)?,
+        None => Shard::ALL,
+    };
+    let out = args.out.unwrap_or_else(|| {
+        let suffix = if shard == Shard::ALL { String::new() } else { format!("-shard-{}-of-{}", shard.index, shard.count) };
+        PathBuf::from("out").join(format!("tune-{}{suffix}", sweep.name))
+    });
+    let ev = &sweep.sweep.evaluate;
+    let eval = sim_eval::SimEvaluator::new(&ev.scenarios, &sweep.sweep.namespace, ev.time_limit, &out.join("points"))?;
+    let pool = rayon::ThreadPoolBuilder::new().num_threads(args.jobs.unwrap_or(0)).build()?;
+    let bar = if args.quiet { ProgressBar::hidden() } else { ProgressBar::new(0) };
+    bar.set_style(ProgressStyle::with_template("{spinner} {elapsed_precise} [{bar:40}] {pos}/{len} episodes, ETA {eta}")?.progress_chars("=> "));
+    let points = sillage_tune::design::points(&sweep).len();
+    eprintln!(
+        "sweep '{}': {points} points x {} cases, shard {}/{}, {} threads, results in {}",
+        sweep.name,
+        sillage_tune::run::cases(&sweep).len(),
+        shard.index,
+        shard.count,
+        pool.current_num_threads(),
+        out.display()
+    );
+    let progress = |done: usize, total: usize| {
+        bar.set_length(total as u64);
+        bar.set_position(done as u64);
+    };
+    let report = pool.install(|| run_sweep(&sweep, &eval, &out, shard, &progress, &|| false))?;
+    bar.finish_and_clear();
+    eprintln!("{} episodes in this shard: {} already done, {} run now", report.shard_units, report.skipped, report.evaluated);
+    if shard != Shard::ALL {
+        eprintln!("shard {}/{}: the ranking covers this shard only; join the shards with `sillage tune merge DIR...`", shard.index, shard.count);
+    }
+    finish(&out, &sweep, read_records(&out)?, !args.no_plots)
+}
+
+fn merge(dirs: &[PathBuf], out: Option<PathBuf>, no_plots: bool) -> Result<()> {
+    let (sweep, records) = results::merge(dirs)?;
+    let out = out.unwrap_or_else(|| PathBuf::from("out").join(format!("tune-{}-merged", sweep.name)));
+    anyhow::ensure!(!dirs.contains(&out), "{}: the merge output must be a new folder, not one of the shards", out.display());
+    results::open_folder(&out, &sweep, Shard::ALL)?;
+    let have = results::done_units(&read_records(&out)?);
+    let file = ResultsFile::open(&out)?;
+    for r in records.iter().filter(|r| !have.contains(&r.unit())) {
+        file.append(r)?;
+    }
+    let points = sillage_tune::design::points(&sweep).len() * sillage_tune::run::cases(&sweep).len();
+    let merged = read_records(&out)?;
+    eprintln!("merged {} folders: {} of {points} episodes", dirs.len(), merged.len());
+    finish(&out, &sweep, merged, !no_plots)
+}
+
+fn finish(out: &Path, sweep: &LoadedSweep, records: Vec<sillage_tune::Record>, plots: bool) -> Result<()> {
+    let errors: Vec<&sillage_tune::Record> = records.iter().filter(|r| r.error.is_some()).collect();
+    for r in errors.iter().take(5) {
+        eprintln!("warning: point {} case {}: {}", r.point, r.case, r.error.as_deref().unwrap_or(""));
+    }
+    let ranked = rank(&sweep.sweep, &records);
+    let files = report::write(out, sweep, &ranked, plots)?;
+    println!("rank  score [95 % interval]            cases  values");
+    for r in ranked.iter().take(5) {
+        let values: Vec<String> = r.values.iter().map(|(k, v)| format!("{k}={}", v.label())).collect();
+        let terms: Vec<String> = r.terms.iter().map(|t| format!("{} {:.3} [{:.3}, {:.3}]", t.metric, t.estimate, t.low, t.high)).collect();
+        println!("{:>4}  {:>8.4} [{:.4}, {:.4}]  {:>5}  {}  ({})", r.rank, r.score, r.score_low, r.score_high, r.cases, values.join(" "), terms.join("; "));
+    }
+    if !errors.is_empty() {
+        println!("{} episodes failed to run (see results.jsonl)", errors.len());
+    }
+    for f in files {
+        println!("wrote {}", f.display());
+    }
+    Ok(())
 }
