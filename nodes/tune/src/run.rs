@@ -186,3 +186,41 @@ pub fn run_sweep(
     let evaluated = count.into_inner() - skipped;
     Ok(RunReport { shard_units: all.len(), skipped, evaluated })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::design::ParamValue;
+    use proptest::prelude::*;
+
+    fn setup(np: usize, nc: usize) -> (Vec<Point>, Vec<Case>) {
+        let points = (0..np).map(|i| Point::new(i, vec![("arbiter.surge.speed".into(), ParamValue::Int(i as i64))])).collect();
+        let cases = (0..nc).map(|i| Case { source: 0, source_label: "s".into(), seed_index: i, seed: i as u64 }).collect();
+        (points, cases)
+    }
+
+    proptest! {
+        #[test]
+        fn shards_partition_the_units(np in 1usize..12, nc in 1usize..6, n in 1usize..9) {
+            let (p, c) = setup(np, nc);
+            let none = HashSet::new();
+            let mut seen: Vec<(usize, usize)> = Vec::new();
+            for i in 0..n {
+                seen.extend(units(&p, &c, Shard { index: i, count: n }, &none).iter().map(|u| (u.point, u.case)));
+            }
+            seen.sort();
+            let all: Vec<(usize, usize)> = units(&p, &c, Shard::ALL, &none).iter().map(|u| (u.point, u.case)).collect();
+            prop_assert_eq!(seen, all);
+            prop_assert_eq!(units(&p, &c, Shard::ALL, &none).len(), np * nc);
+        }
+    }
+
+    #[test]
+    fn shard_text_is_checked() {
+        assert_eq!(Shard::parse("2/5").ok(), Some(Shard { index: 2, count: 5 }));
+        for bad in ["5/5", "1", "a/3", "0/0", "-1/2"] {
+            let e = Shard::parse(bad).err().map(|e| e.to_string()).unwrap_or_default();
+            assert!(e.contains(bad), "{bad}: {e}");
+        }
+    }
+}
