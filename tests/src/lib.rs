@@ -1,5 +1,7 @@
 //! Cross-crate integration tests of sillage live in `tests/tests/`; this library holds shared
-//! helpers for them (fixture paths).
+//! helpers for them (fixture paths, and the fault-injection harness in [`faults`]).
+
+pub mod faults;
 
 use std::path::PathBuf;
 
