@@ -162,14 +162,20 @@ pub fn match_onsets(a: &[Nanos], b: &[Nanos], center: Nanos, tolerance: Nanos, o
     }
 }
 
-/// The median of `v`, which it sorts; `None` when empty.
-pub fn median_sorting(v: &mut [f64]) -> Option<f64> {
-    if v.is_empty() {
+/// The median of `v` (mean of the two middle values for an even length), which it reorders
+/// (O(n) selection); `None` when empty.
+pub fn median_reordering(v: &mut [f64]) -> Option<f64> {
+    let n = v.len();
+    if n == 0 {
         return None;
     }
-    v.sort_unstable_by(f64::total_cmp);
-    let n = v.len();
-    Some(if n % 2 == 1 { v[n / 2] } else { 0.5 * (v[n / 2 - 1] + v[n / 2]) })
+    let (lower, mid, _) = v.select_nth_unstable_by(n / 2, f64::total_cmp);
+    let mid = *mid;
+    if n % 2 == 1 {
+        return Some(mid);
+    }
+    let below = lower.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    Some(0.5 * (below + mid))
 }
 
 /// Reusable lag estimator (owns its scratch buffers).
@@ -209,10 +215,10 @@ impl LagEstimator {
         self.lags.clear();
         match_onsets(a, b, center, s.tolerance.max(0), &mut self.lags);
         let matched = self.lags.len();
-        let med = median_sorting(&mut self.lags)?;
+        let med = median_reordering(&mut self.lags)?;
         self.devs.clear();
         self.devs.extend(self.lags.iter().map(|x| (x - med).abs()));
-        let mad = median_sorting(&mut self.devs).unwrap_or(0.0);
+        let mad = median_reordering(&mut self.devs).unwrap_or(0.0);
         let threshold = (s.mad_k * 1.4826 * mad).max(bin as f64 * 1e-9);
         let (mut n, mut sum, mut sum2) = (0usize, 0.0, 0.0);
         for &x in self.lags.iter().filter(|x| (*x - med).abs() <= threshold) {
@@ -303,6 +309,15 @@ mod tests {
             let mut c = Vec::new();
             correlate(&a, &b, bin, k_max, &mut c);
             prop_assert_eq!(c, dense(&a, &b, bin, k_max));
+        }
+
+        #[test]
+        fn median_by_selection_equals_the_sorted_median(mut v in proptest::collection::vec(-1e3f64..1e3, 1..50)) {
+            let mut sorted = v.clone();
+            sorted.sort_by(f64::total_cmp);
+            let n = sorted.len();
+            let want = if n % 2 == 1 { sorted[n / 2] } else { 0.5 * (sorted[n / 2 - 1] + sorted[n / 2]) };
+            prop_assert_eq!(median_reordering(&mut v), Some(want));
         }
 
         #[test]
