@@ -280,7 +280,7 @@ fn amplitude_from_mox_resistance_through_the_default_conditioning() {
     let b = d.tick(t);
     assert_eq!(b.cue, OdorBearing::AMPLITUDE, "{b:?}");
     assert!((b.bearing - 90.0 * DEG).abs() < 1e-6, "{}", b.bearing / DEG);
-    let a = d.node.last_estimate().and_then(|e| e.amplitude.clone()).expect("amplitude on").expect("cue");
+    let a = d.node.last_estimate().and_then(|e| e.amplitude).expect("amplitude on").expect("cue");
     assert!((a.contrast.y - 0.545).abs() < 0.01, "{a:?}");
     assert_eq!(d.node.warnings().total(), 0);
 }
