@@ -15,9 +15,11 @@
 //!   relative diffusivity [m^2/s]; centres reflect at z = 0.
 //! - filaments older than `max_age` or leaving the arena rectangle are dropped; above
 //!   `max_filaments` the oldest go first. Obstacles do not block filaments.
-//! - queries use a uniform grid of cells rebuilt after each step; a filament is summed
-//!   only within `CUTOFF_SIGMAS` R of the query point horizontally (the neglected tail
-//!   is below exp(-CUTOFF_SIGMAS^2 / 2) of its peak).
+//! - a filament is summed only within `CUTOFF_SIGMAS` R of the query point horizontally
+//!   (the neglected tail is below exp(-CUTOFF_SIGMAS^2 / 2) of its peak). A single query
+//!   scans the live filaments (a cheap squared-distance test each; the few sensors of a
+//!   robot query once per step, so no index is kept up to date); a batch of queries
+//!   ([`FilamentPlume::concentrations`], e.g. a map) builds a uniform grid of cells once.
 
 use crate::arena::Aabb;
 use crate::wind::WindField;
@@ -103,7 +105,7 @@ struct Packed {
     cut2: f64,
 }
 
-/// Uniform-grid bucket index of the filaments (counting sort, rebuilt each step).
+/// Uniform-grid bucket index of the filaments (counting sort), built for a batch of queries.
 #[derive(Debug, Clone)]
 struct CellIndex {
     x0: f64,
@@ -139,12 +141,10 @@ impl CellIndex {
     }
 
     fn cell_xy(&self, x: f64, y: f64) -> (usize, usize) {
-        let cx = ((x - self.x0) / self.cell)
-            .floor()
-            .clamp(0.0, (self.nx - 1) as f64) as usize;
-        let cy = ((y - self.y0) / self.cell)
-            .floor()
-            .clamp(0.0, (self.ny - 1) as f64) as usize;
+        // Truncation equals floor for the non-negative values kept by max(0) (NaN maps to 0),
+        // and avoids a libm call per filament.
+        let cx = (((x - self.x0) / self.cell).max(0.0) as usize).min(self.nx - 1);
+        let cy = (((y - self.y0) / self.cell).max(0.0) as usize).min(self.ny - 1);
         (cx, cy)
     }
 
@@ -267,7 +267,7 @@ impl FilamentPlume {
 
     /// Advances the plume from its time t to `t_end` [s]: moves live filaments with the
     /// wind at mid-step, releases the filaments due in (t, t_end] (each moved for its own
-    /// part of the step), drops old or escaped ones and rebuilds the query index. `wind`
+    /// part of the step), drops old or escaped ones. `wind`
     /// must already be advanced to `t_end`. Absolute times keep ages free of round-off
     /// accumulated over many steps.
     pub fn step_to(&mut self, wind: &WindField, t_end: f64) {
@@ -315,12 +315,36 @@ impl FilamentPlume {
             self.filaments.drain(..excess);
         }
         self.time = t_end;
-        self.index.rebuild(&self.filaments, &self.sources, t_end);
     }
 
     /// Instantaneous concentration [g/m^3] at world point `p` [m] (z = height).
     pub fn concentration(&self, p: [f64; 3]) -> f64 {
-        self.index.query(p)
+        let norm = (2.0 * PI).powf(1.5);
+        let mut sum = 0.0;
+        for f in &self.filaments {
+            let (dx, dy) = (p[0] - f.pos[0], p[1] - f.pos[1]);
+            let h2 = dx * dx + dy * dy;
+            let src = &self.sources[f.source];
+            let r2 = src.radius_sq(self.time - f.birth);
+            if h2 >= CUTOFF_SIGMAS * CUTOFF_SIGMAS * r2 {
+                continue;
+            }
+            let inv_2r2 = 0.5 / r2;
+            let (d1, d2) = (p[2] - f.pos[2], p[2] + f.pos[2]);
+            let direct = (-(h2 + d1 * d1) * inv_2r2).exp();
+            let image = (-(h2 + d2 * d2) * inv_2r2).exp();
+            sum += src.mass_per_filament() / (norm * r2 * r2.sqrt()) * (direct + image);
+        }
+        sum
+    }
+
+    /// Concentrations [g/m^3] at many points, appended to `out` in order (same values as
+    /// [`FilamentPlume::concentration`] up to summation order), through a cell index built
+    /// once for the batch.
+    pub fn concentrations(&self, points: impl Iterator<Item = [f64; 3]>, out: &mut Vec<f64>) {
+        let mut index = self.index.clone();
+        index.rebuild(&self.filaments, &self.sources, self.time);
+        out.extend(points.map(|p| index.query(p)));
     }
 
     /// Same as [`FilamentPlume::concentration`] by summing every filament (no culling);
@@ -467,6 +491,10 @@ mod tests {
                 if slow > 0.0 {
                     checked += 1;
                 }
+                // The batch path (cell index) applies the same cut-off: equal up to round-off.
+                let mut batch = Vec::new();
+                p.concentrations(std::iter::once(q), &mut batch);
+                assert!((batch[0] - fast).abs() <= 1e-12 * fast.abs(), "{q:?}: {} vs {fast}", batch[0]);
             }
         }
         assert!(checked > 50, "only {checked} points saw the plume");

@@ -78,6 +78,15 @@ impl PlumeModel {
             PlumeModel::Gaussian(g) => g.concentration(p),
         }
     }
+
+    /// Concentrations on every cell of `grid`, row-major, appended to `out`.
+    fn grid_concentrations(&self, grid: &GridSpec, out: &mut Vec<f64>) {
+        let points = (0..grid.ny).flat_map(|j| (0..grid.nx).map(move |i| grid.point(i, j)));
+        match self {
+            PlumeModel::Filament(f) => f.concentrations(points, out),
+            PlumeModel::Gaussian(g) => out.extend(points.map(|p| g.concentration(p))),
+        }
+    }
 }
 
 #[derive(Debug, Clone)]
@@ -320,10 +329,10 @@ impl World {
         }
         if let Some(m) = &mut self.mean_map {
             if m.clock.take_due(now).is_some() {
-                for j in 0..m.grid.ny {
-                    for i in 0..m.grid.nx {
-                        m.sum[j * m.grid.nx + i] += self.plume.concentration(m.grid.point(i, j));
-                    }
+                let mut snapshot = Vec::with_capacity(m.sum.len());
+                self.plume.grid_concentrations(&m.grid, &mut snapshot);
+                for (s, c) in m.sum.iter_mut().zip(snapshot) {
+                    *s += c;
                 }
                 m.count += 1;
             }
@@ -458,11 +467,7 @@ impl World {
     /// Instantaneous concentration on a grid [g/m^3], row-major (index j * nx + i).
     pub fn concentration_map(&self, grid: &GridSpec) -> Vec<f64> {
         let mut out = Vec::with_capacity(grid.nx * grid.ny);
-        for j in 0..grid.ny {
-            for i in 0..grid.nx {
-                out.push(self.plume.concentration(grid.point(i, j)));
-            }
-        }
+        self.plume.grid_concentrations(grid, &mut out);
         out
     }
 

@@ -1,0 +1,161 @@
+//! The stack as the simulator runs it: `sillage_stack::add_stack` with the user's parameter file
+//! (or the defaults), then the robot description taken from the scenario and an optional
+//! strategy override, applied as run-time parameter changes before the clock starts.
+//!
+//! Geometry from the scenario (it is the truth about the simulated robot, so it always wins
+//! over the parameter file): the bearing decoder's `channel_names`, `sensors.{names, x, y}`
+//! (chemical channel positions in base_link) and `wind.anemometer_{x, y}`; the arbiter's
+//! `base` (diff_drive / holonomic) and, with a laser, `obstacle.scan_yaw` (the mount yaw).
+//! The effective parameters of every node can be written out ([`effective_params_text`]) so
+//! that `sillage replay --params` rebuilds the very same graph.
+
+use crate::error::SimError;
+use serde_yaml::{Mapping, Value};
+use sillage_core::executor::{resolve_topic, Executor};
+use sillage_core::time::SECOND;
+use sillage_stack::{add_stack, node_fqn, NodeKind, StackConfig};
+use sillage_world::robot::DriveKind;
+use sillage_world::Scenario;
+
+/// How to build the stack for the simulator.
+#[derive(Debug, Clone, Default)]
+pub struct StackSetup {
+    /// Namespace, parameter file, remaps and nodes (as for `sillage replay`).
+    pub config: StackConfig,
+    /// Arbiter strategy replacing the file's (`cast_surge`, `zigzag`, `spiral`, `reactive`).
+    pub strategy: Option<String>,
+}
+
+/// A built stack: the executor (diagnostics at 1 Hz, clock not started) and where its nodes are.
+pub struct BuiltStack {
+    /// The executor holding the stack.
+    pub executor: Executor,
+    /// Executor index of each configured node, with its kind.
+    pub nodes: Vec<(NodeKind, usize)>,
+    /// Executor index of the arbiter.
+    pub arbiter: usize,
+    /// The type the arbiter publishes on `cmd_vel`.
+    pub cmd_vel_type: &'static str,
+}
+
+fn map(pairs: Vec<(&str, Value)>) -> Value {
+    let mut m = Mapping::new();
+    for (k, v) in pairs {
+        m.insert(Value::from(k), v);
+    }
+    Value::Mapping(m)
+}
+
+fn floats(v: impl Iterator<Item = f64>) -> Value {
+    Value::Sequence(v.map(Value::from).collect())
+}
+
+/// The parameter changes that describe the scenario's robot to each node kind.
+pub fn geometry_overrides(s: &Scenario) -> Vec<(NodeKind, Value)> {
+    let ch = &s.sensors.channels;
+    let names = Value::Sequence(ch.iter().map(|c| Value::from(c.name.as_str())).collect());
+    let bearing = map(vec![
+        ("channel_names", names.clone()),
+        (
+            "sensors",
+            map(vec![("names", names), ("x", floats(ch.iter().map(|c| c.position[0]))), ("y", floats(ch.iter().map(|c| c.position[1])))]),
+        ),
+        ("wind", map(vec![("anemometer_x", Value::from(s.anemometer.position[0])), ("anemometer_y", Value::from(s.anemometer.position[1]))])),
+    ]);
+    let base = match s.robot.drive {
+        DriveKind::DiffDrive => "diff_drive",
+        DriveKind::Holonomic => "holonomic",
+    };
+    let mut arbiter = vec![("base", Value::from(base))];
+    if let Some(l) = &s.laser {
+        arbiter.push(("obstacle", map(vec![("scan_yaw", Value::from(l.mount[2]))])));
+    }
+    vec![(NodeKind::BearingDecoder, bearing), (NodeKind::Arbiter, map(arbiter))]
+}
+
+fn apply(ex: &mut Executor, index: usize, fqn: &str, what: &str, value: &Value) -> Result<(), SimError> {
+    let node = ex.node_mut(index).ok_or(SimError::MissingNode("arbiter"))?;
+    node.set_params_yaml(value).map_err(|error| SimError::Override { node: fqn.to_string(), what: what.to_string(), error })
+}
+
+/// Builds the stack of `setup` for `scenario` (see the module docs).
+pub fn build_stack(setup: &StackSetup, scenario: &Scenario) -> Result<BuiltStack, SimError> {
+    let cfg = &setup.config;
+    let mut ex = Executor::new();
+    ex.enable_diagnostics(SECOND).map_err(|error| SimError::Executor { episode: 0, error })?;
+    let idx = add_stack(&mut ex, cfg)?;
+    let nodes: Vec<(NodeKind, usize)> = cfg.nodes.iter().copied().zip(idx).collect();
+    let find = |k: NodeKind| nodes.iter().find(|(kind, _)| *kind == k).map(|(_, i)| *i);
+    for (kind, value) in geometry_overrides(scenario) {
+        if let Some(i) = find(kind) {
+            apply(&mut ex, i, &node_fqn(kind, &cfg.namespace), "robot geometry from the scenario", &value)?;
+        }
+    }
+    let arbiter = find(NodeKind::Arbiter).ok_or(SimError::MissingNode("arbiter"))?;
+    if let Some(name) = &setup.strategy {
+        let value = map(vec![("strategy", Value::from(name.as_str()))]);
+        apply(&mut ex, arbiter, &node_fqn(NodeKind::Arbiter, &cfg.namespace), "strategy", &value)?;
+    }
+    let topic = resolve_topic("cmd_vel", &cfg.namespace, NodeKind::Arbiter.name());
+    let cmd_vel_type = ex.topic_type(&topic).ok_or(SimError::MissingNode("arbiter"))?;
+    Ok(BuiltStack { executor: ex, nodes, arbiter, cmd_vel_type })
+}
+
+/// A ROS 2 parameter file with the current parameters of every node of `built` (keyed by the
+/// fully qualified node name), plus `extra` sections (e.g. the world node's).
+pub fn effective_params_text(built: &BuiltStack, namespace: &str, extra: &[(&str, Value)]) -> String {
+    let mut doc = Mapping::new();
+    let mut section = |key: String, params: Value| {
+        doc.insert(Value::from(key), map(vec![("ros__parameters", params)]));
+    };
+    for (kind, i) in &built.nodes {
+        if let Some(n) = built.executor.node(*i) {
+            section(node_fqn(*kind, namespace), n.params_yaml());
+        }
+    }
+    for (key, v) in extra {
+        section((*key).to_string(), v.clone());
+    }
+    let body = serde_yaml::to_string(&Value::Mapping(doc)).unwrap_or_default();
+    format!(
+        "# Effective parameters of a `sillage sim` run: the parameter file, the robot geometry of the\n\
+         # scenario and the strategy override applied. `sillage replay BAG --params THIS_FILE` rebuilds\n\
+         # the same graph.\n{body}"
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn demo() -> Scenario {
+        let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../../config/scenarios/demo.yaml");
+        Scenario::from_path(&path).unwrap_or_else(|e| panic!("{e}"))
+    }
+
+    #[test]
+    fn geometry_and_strategy_reach_the_nodes() {
+        let s = demo();
+        let setup = StackSetup { strategy: Some("reactive".into()), ..Default::default() };
+        let b = build_stack(&setup, &s).expect("builds");
+        let a = b.executor.node(b.arbiter).expect("arbiter").params_yaml();
+        assert_eq!(a["strategy"], Value::from("reactive"));
+        assert_eq!(a["base"], Value::from("diff_drive"));
+        let (_, bi) = *b.nodes.iter().find(|(k, _)| *k == NodeKind::BearingDecoder).expect("decoder");
+        let d = b.executor.node(bi).expect("decoder").params_yaml();
+        // demo.yaml: left at (0.15, 0.12), right at (0.15, -0.12) in base_link.
+        assert_eq!(d["sensors"]["y"], floats([0.12, -0.12].into_iter()));
+        assert_eq!(d["sensors"]["x"], floats([0.15, 0.15].into_iter()));
+        assert_eq!(b.cmd_vel_type, "geometry_msgs/msg/TwistStamped");
+        let text = effective_params_text(&b, "", &[]);
+        assert!(text.contains("/arbiter:") && text.contains("ros__parameters") && text.contains("reactive"), "{text}");
+    }
+
+    #[test]
+    fn an_unknown_strategy_is_refused_with_the_node_named() {
+        let setup = StackSetup { strategy: Some("teleport".into()), ..Default::default() };
+        let e = build_stack(&setup, &demo()).err().expect("refused");
+        let m = e.to_string();
+        assert!(m.contains("/arbiter") && m.contains("strategy"), "{m}");
+    }
+}
