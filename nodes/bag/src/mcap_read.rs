@@ -10,7 +10,7 @@
 use crate::error::{BagError, Location};
 use crate::source::{Head, Source, TopicDecl};
 use mcap::records::{op, ChunkIndex};
-use mcap::sans_io::{MessageReadEvent, MessageReader, SummaryReadEvent, SummaryReader, SummaryReaderOptions};
+use mcap::sans_io::{LinearReadEvent, LinearReader, LinearReaderOptions, SummaryReadEvent, SummaryReader, SummaryReaderOptions};
 use std::collections::HashMap;
 use std::io::{Read, Seek, SeekFrom};
 use std::path::{Path, PathBuf};
@@ -72,9 +72,20 @@ struct Indexed {
     current: Option<usize>,
 }
 
+/// Front-to-back reading: the mcap crate's linear reader yields top-level records (chunks
+/// whole), and chunks are decoded and checked here as on the indexed path.
+struct Linear {
+    reader: LinearReader,
+    schemas: HashMap<u16, (String, String, String)>,
+    /// A message outside chunks: (log time, channel, data, CRC).
+    single: Option<(u64, u16, Vec<u8>, u32)>,
+    chunk: Option<LoadedChunk>,
+    done: bool,
+}
+
 enum Mode {
     Indexed(Indexed),
-    Linear { reader: Box<MessageReader>, current: Option<mcap::Message<'static>>, done: bool },
+    Linear(Box<Linear>),
 }
 
 /// Reads, checks and indexes chunks of one file.
@@ -94,7 +105,6 @@ struct FileCtx<R> {
     channels: HashMap<u16, TopicDecl>,
     warnings: Vec<String>,
     offset_read: u64,
-    linear_crc: u32,
 }
 
 /// A cursor over one MCAP file.
@@ -226,14 +236,12 @@ impl<R: Read + Seek> McapSource<R> {
             }
             _ => {
                 file.seek(SeekFrom::Start(0)).map_err(io)?;
-                let opts = mcap::sans_io::LinearReaderOptions::default()
-                    .with_record_length_limit(limit as usize)
-                    .with_validate_chunk_crcs(true);
-                Mode::Linear { reader: Box::new(MessageReader::new_with_options(opts)), current: None, done: false }
+                let opts = LinearReaderOptions::default().with_record_length_limit(limit as usize).with_emit_chunks(true);
+                Mode::Linear(Box::new(Linear { reader: LinearReader::new_with_options(opts), schemas: HashMap::new(), single: None, chunk: None, done: false }))
             }
         };
         let loader = ChunkLoader { path, file, file_len, start, end, limit };
-        let ctx = FileCtx { loader, channels, warnings, offset_read: 0, linear_crc: 0 };
+        let ctx = FileCtx { loader, channels, warnings, offset_read: 0 };
         Ok(McapSource { ctx, summary, mode, want_prefetch: false })
     }
 
@@ -250,7 +258,7 @@ impl<R: Read + Seek> McapSource<R> {
 
 impl<R: Read + Seek> ChunkLoader<R> {
     /// Reads, checks and indexes the chunk `ci` into `buf` (a recycled buffer).
-    fn load(&mut self, ci: &ChunkIndex, raw: &mut Vec<u8>, mut buf: Vec<u8>) -> Result<LoadedChunk, BagError> {
+    fn load(&mut self, ci: &ChunkIndex, raw: &mut Vec<u8>, buf: Vec<u8>) -> Result<LoadedChunk, BagError> {
         let path = &self.path;
         let at = Location::Chunk(ci.chunk_start_offset);
         let bad = |reason: String| mcap_err(path, at.clone(), reason);
@@ -264,7 +272,15 @@ impl<R: Read + Seek> ChunkLoader<R> {
         if raw[0] != op::CHUNK {
             return Err(bad(format!("chunk index points at a record of opcode {:#04x}, not a chunk", raw[0])));
         }
-        let (header, data) = match mcap::read::parse_record(op::CHUNK, &raw[9..]) {
+        self.decode_chunk(&raw[9..], ci.chunk_start_offset, buf)
+    }
+
+    /// Decompresses, checks and indexes a chunk record's body found at file offset `offset`.
+    fn decode_chunk(&self, body: &[u8], offset: u64, mut buf: Vec<u8>) -> Result<LoadedChunk, BagError> {
+        let path = &self.path;
+        let at = Location::Chunk(offset);
+        let bad = |reason: String| mcap_err(path, at.clone(), reason);
+        let (header, data) = match mcap::read::parse_record(op::CHUNK, body) {
             Ok(mcap::records::Record::Chunk { header, data }) => (header, data),
             Ok(_) => return Err(bad("not a chunk record".into())),
             Err(e) => return Err(bad(e.to_string())),
@@ -287,9 +303,7 @@ impl<R: Read + Seek> ChunkLoader<R> {
                 let mut dec = lz4::Decoder::new(&data[..]).map_err(|e| bad(format!("lz4: {e}")))?;
                 (&mut dec).take(size as u64 + 1).read_to_end(&mut buf).map_err(|e| bad(format!("lz4: {e}")))?;
             }
-            other => {
-                return Err(BagError::Compression { path: path.clone(), offset: ci.chunk_start_offset, compression: other.to_string() })
-            }
+            other => return Err(BagError::Compression { path: path.clone(), offset, compression: other.to_string() }),
         }
         if buf.len() != size {
             return Err(bad(format!("chunk decompresses to {} bytes, its header says {size}", buf.len())));
@@ -297,11 +311,11 @@ impl<R: Read + Seek> ChunkLoader<R> {
         if header.uncompressed_crc != 0 {
             let computed = crc32fast::hash(&buf);
             if computed != header.uncompressed_crc {
-                return Err(BagError::ChunkCrc { path: path.clone(), offset: ci.chunk_start_offset, saved: header.uncompressed_crc, computed });
+                return Err(BagError::ChunkCrc { path: path.clone(), offset, saved: header.uncompressed_crc, computed });
             }
         }
-        let (entries, learnt) = self.index_chunk(&buf, ci.chunk_start_offset)?;
-        Ok(LoadedChunk { offset: ci.chunk_start_offset, buf, entries, pos: 0, learnt })
+        let (entries, learnt) = self.index_chunk(&buf, offset)?;
+        Ok(LoadedChunk { offset, buf, entries, pos: 0, learnt })
     }
 
     /// The message records of a decompressed chunk within the time range, in log-time order
@@ -438,40 +452,80 @@ impl<R: Read + Seek> FileCtx<R> {
         Ok(ix.current.is_some())
     }
 
-    fn advance_linear(
-        &mut self,
-        reader: &mut MessageReader,
-        current: &mut Option<mcap::Message<'static>>,
-        done: &mut bool,
-    ) -> Result<bool, BagError> {
-        *current = None;
-        if *done {
+    fn advance_linear(&mut self, lin: &mut Linear) -> Result<bool, BagError> {
+        lin.single = None;
+        if let Some(c) = &mut lin.chunk {
+            c.pos += 1;
+            if c.pos < c.entries.len() {
+                return Ok(true);
+            }
+        }
+        if let Some(c) = lin.chunk.take() {
+            drop(c);
+        }
+        if lin.done {
             return Ok(false);
         }
         loop {
-            let Some(event) = reader.next_event() else {
-                *done = true;
+            let Some(event) = lin.reader.next_event() else {
+                lin.done = true;
                 return Ok(false);
             };
+            let at = Location::Offset(self.offset_read);
             match event {
-                Ok(MessageReadEvent::ReadRequest(n)) => {
-                    let buf = reader.insert(n);
+                Ok(LinearReadEvent::ReadRequest(n)) => {
+                    let buf = lin.reader.insert(n);
                     let k = self.loader.file.read(buf).map_err(|e| BagError::io(&self.loader.path, e))?;
                     self.offset_read += k as u64;
-                    reader.notify_read(k);
+                    lin.reader.notify_read(k);
                 }
-                Ok(MessageReadEvent::Message(m)) => {
-                    if m.log_time < self.loader.start || m.log_time > self.loader.end {
-                        continue;
+                Ok(LinearReadEvent::Record { opcode, data }) => match opcode {
+                    op::MESSAGE => {
+                        if data.len() < 22 {
+                            return Err(mcap_err(&self.loader.path, at, "message record shorter than its 22-byte header"));
+                        }
+                        let channel = u16::from_le_bytes([data[0], data[1]]);
+                        let mut t = [0u8; 8];
+                        t.copy_from_slice(&data[6..14]);
+                        let log_time = u64::from_le_bytes(t);
+                        if log_time < self.loader.start || log_time > self.loader.end {
+                            continue;
+                        }
+                        let body = data[22..].to_vec();
+                        let crc = crc32fast::hash(&body);
+                        lin.single = Some((log_time, channel, body, crc));
+                        return Ok(true);
                     }
-                    self.channels.entry(m.channel.id).or_insert_with(|| decl_of(&m.channel));
-                    self.linear_crc = crc32fast::hash(&m.data);
-                    *current = Some(m);
-                    return Ok(true);
-                }
+                    op::CHUNK => {
+                        let c = self.loader.decode_chunk(data, self.offset_read, Vec::new())?;
+                        for (id, d) in &c.learnt {
+                            self.channels.entry(*id).or_insert_with(|| d.clone());
+                        }
+                        if !c.entries.is_empty() {
+                            lin.chunk = Some(c);
+                            return Ok(true);
+                        }
+                    }
+                    op::SCHEMA | op::CHANNEL => match mcap::read::parse_record(opcode, data) {
+                        Ok(mcap::records::Record::Schema { header, data }) => {
+                            lin.schemas.insert(header.id, (header.name, header.encoding, String::from_utf8_lossy(&data).into_owned()));
+                        }
+                        Ok(mcap::records::Record::Channel(c)) => {
+                            let (type_name, schema_encoding, schema) = lin.schemas.get(&c.schema_id).cloned().unwrap_or_default();
+                            let qos = c.metadata.get("offered_qos_profiles").cloned().unwrap_or_default();
+                            self.channels.entry(c.id).or_insert(TopicDecl { name: c.topic, type_name, encoding: c.message_encoding, schema_encoding, schema, qos });
+                        }
+                        Ok(_) => {}
+                        Err(e) => return Err(mcap_err(&self.loader.path, at, e)),
+                    },
+                    op::DATA_END | op::FOOTER => {
+                        lin.done = true;
+                        return Ok(false);
+                    }
+                    _ => {}
+                },
                 Err(e) => {
-                    *done = true;
-                    let at = Location::Offset(self.offset_read);
+                    lin.done = true;
                     return match e {
                         mcap::McapError::UnexpectedEof | mcap::McapError::BadMagic | mcap::McapError::BadFooter => {
                             self.warnings.push(format!(
@@ -511,7 +565,7 @@ impl<R: Read + Seek> Source for McapSource<R> {
         }
         match &mut self.mode {
             Mode::Indexed(ix) => self.ctx.advance_indexed(ix),
-            Mode::Linear { reader, current, done } => self.ctx.advance_linear(reader, current, done),
+            Mode::Linear(lin) => self.ctx.advance_linear(lin),
         }
     }
 
@@ -528,9 +582,19 @@ impl<R: Read + Seek> Source for McapSource<R> {
                     crc: e.crc,
                 })
             }
-            Mode::Linear { current, .. } => {
-                let m = current.as_ref()?;
-                Some(Head { log_time: m.log_time as i64, topic: i64::from(m.channel.id), data: &m.data, at: Location::Offset(self.ctx.offset_read), crc: self.ctx.linear_crc })
+            Mode::Linear(lin) => {
+                if let Some((t, ch, data, crc)) = &lin.single {
+                    return Some(Head { log_time: *t as i64, topic: i64::from(*ch), data, at: Location::Offset(self.ctx.offset_read), crc: *crc });
+                }
+                let c = lin.chunk.as_ref()?;
+                let e = c.entries.get(c.pos)?;
+                Some(Head {
+                    log_time: e.log_time as i64,
+                    topic: i64::from(e.channel),
+                    data: &c.buf[e.start as usize..e.end as usize],
+                    at: Location::InChunk { chunk: c.offset, record: u64::from(e.record) },
+                    crc: e.crc,
+                })
             }
         }
     }
