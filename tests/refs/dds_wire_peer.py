@@ -26,6 +26,7 @@ import json
 import math
 import sys
 import multiprocessing as mp
+import os
 import time
 from pathlib import Path
 
@@ -223,7 +224,9 @@ class Peer:
         return None, None
 
 
-FLOOD_RATE = 5000  # flood samples per second: 25 times sillage's --max-input-rate of 200 Hz
+# Flood samples per second: 25 times sillage's --max-input-rate of 200 Hz (environment
+# SILLAGE_WIRE_FLOOD_RATE overrides it, to probe harder floods by hand).
+FLOOD_RATE = float(os.environ.get("SILLAGE_WIRE_FLOOD_RATE", "5000"))
 
 
 def flood_process(domain: int, dds_topic: str, seconds: float, limit: int, t0: int, m0: float, count) -> None:

@@ -27,6 +27,8 @@ pub const MAX_WAIT: Duration = Duration::from_millis(100);
 pub const BATCH: usize = 32;
 /// Passes over the subscriptions per turn of the loop.
 pub const PASSES: usize = 8;
+/// How long the stop commands get to leave before the transport closes.
+pub const STOP_LINGER: Duration = Duration::from_millis(200);
 
 /// System time [ns since the Unix epoch].
 fn system_ns() -> i64 {
@@ -73,15 +75,13 @@ fn handle_event(ev: Ev, t: &DdsTransport, engine: &mut Engine) {
     }
 }
 
-/// Takes samples round-robin; returns whether some subscription may still have data.
-fn take_inputs(t: &mut DdsTransport, engine: &mut Engine, start: Instant) -> bool {
+/// Takes samples round-robin in `order`; returns whether some subscription may still have
+/// data.
+fn take_inputs(t: &mut DdsTransport, engine: &mut Engine, order: &[usize], start: Instant) -> bool {
     t.drain_notifications();
-    // Latched inputs (the e-stop) first in every pass: a stop must not wait behind a flood.
-    let mut order: Vec<usize> = (0..engine.inputs().len()).collect();
-    order.sort_by_key(|&i| engine.inputs()[i].class != Some(sillage_core::Qos::Latched));
     for _ in 0..PASSES {
         let mut more = false;
-        for &i in &order {
+        for &i in order {
             let mut taken = 0;
             while taken < BATCH {
                 let (writer, raw) = match t.take(i) {
@@ -132,6 +132,9 @@ pub fn run(engine: &mut Engine, domain_id: u16, namespace: &str, stop: &AtomicBo
         engine.clock_mode(),
         transport::endpoint_id(&ros2_client::dds::rustdds::RTPSEntity::guid(t.participant()))
     );
+    // Latched inputs (the e-stop) first in every pass: a stop must not wait behind a flood.
+    let mut order: Vec<usize> = (0..n).collect();
+    order.sort_by_key(|&i| engine.inputs()[i].class != Some(sillage_core::Qos::Latched));
     let start = Instant::now();
     let mut events = Events::with_capacity(64);
     let mut pending = false;
@@ -149,7 +152,7 @@ pub fn run(engine: &mut Engine, domain_id: u16, namespace: &str, stop: &AtomicBo
         while let Some(ev) = status.try_recv_status() {
             handle_event(ev, &t, engine);
         }
-        pending = take_inputs(&mut t, engine, start);
+        pending = take_inputs(&mut t, engine, &order, start);
         engine.poll_timers(system_ns(), &mut t);
         for line in engine.drain_log() {
             log::warn!("{line}");
@@ -159,6 +162,9 @@ pub fn run(engine: &mut Engine, domain_id: u16, namespace: &str, stop: &AtomicBo
     for line in engine.drain_log() {
         log::warn!("{line}");
     }
+    // The middleware sends on its own thread: give the zero commands time to leave before the
+    // participant goes away (`ros2-client` publishers cannot wait for acknowledgements).
+    std::thread::sleep(STOP_LINGER);
     log::info!("stopped (zero velocity published on velocity outputs)");
     Ok(())
 }
