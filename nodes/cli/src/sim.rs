@@ -1,13 +1,205 @@
-//! `sillage sim` (not built yet: its issue is open).
+//! `sillage sim SCENARIO`: seeded closed-loop episodes against the simulated world, in parallel.
+//!
+//! Episode `i` uses world seed `--seed + i` and start pose `i mod (number of start poses)`;
+//! each episode is a pure function of the scenario, the parameters and its seed, so the results
+//! are the same whatever `--jobs`. Writes to the output folder (default `out/sim-<scenario
+//! name>`): `episodes.json` (per-episode metrics), `summary.json` and `summary.txt` (success
+//! rate with its Wilson 95 % interval, quantiles of time and path ratio), `params.yaml` (the
+//! effective parameters of every node: `sillage replay --params` takes it), `plots/`, and with
+//! `--record` a rosbag2 MCAP bag `bag/` of episode 0 that `sillage replay` reads.
+
+#[path = "sim_plots.rs"]
+mod sim_plots;
+#[path = "sim_report.rs"]
+mod sim_report;
+
+use sim_plots::Format;
+use anyhow::{Context, Result};
+use rayon::prelude::*;
+use sillage_bag::{BagWriter, QosProfile, WriterOptions};
+use sillage_core::executor::{remap_topic, Placement, Record};
+use sillage_core::{NodeCore, Qos};
+use sillage_sim::{EpisodeResult, EpisodeSpec, RunOptions, Sim, StackSetup, Summary, WorldParams};
+use sillage_stack::StackConfig;
+use sillage_world::Scenario;
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+use std::time::Instant;
 
 /// Arguments of `sillage sim`.
 #[derive(clap::Args)]
 pub struct Args {
-    /// Inputs.
-    pub inputs: Vec<std::path::PathBuf>,
+    /// Scenario file (see config/scenarios/SCHEMA.md).
+    pub scenario: PathBuf,
+    /// ROS 2 parameter file for the nodes (default: built-in defaults).
+    #[arg(long)]
+    pub params: Option<PathBuf>,
+    /// Arbiter strategy replacing the parameter file's (cast_surge, zigzag, spiral, reactive).
+    #[arg(long)]
+    pub strategy: Option<String>,
+    /// Number of episodes.
+    #[arg(long, default_value_t = 20)]
+    pub episodes: usize,
+    /// Base seed: episode i uses world seed S + i.
+    #[arg(long, default_value_t = 0)]
+    pub seed: u64,
+    /// Episodes run at once (default: the number of cores).
+    #[arg(long)]
+    pub jobs: Option<usize>,
+    /// Output folder (default: out/sim-<scenario name>).
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// Record episode 0 as a rosbag2 MCAP bag in OUT/bag.
+    #[arg(long)]
+    pub record: bool,
+    /// Episode length [s] (default: the scenario's time_limit).
+    #[arg(long, value_name = "S")]
+    pub time_limit: Option<f64>,
+    /// End an episode at its first false declaration (default: the search restarts).
+    #[arg(long)]
+    pub stop_on_false_declaration: bool,
+    /// Plot image format.
+    #[arg(long, value_enum, default_value = "svg")]
+    pub plot_format: Format,
+    /// Do not draw plots.
+    #[arg(long)]
+    pub no_plots: bool,
+    /// Do not show a progress bar.
+    #[arg(long)]
+    pub quiet: bool,
 }
 
-/// Runs the subcommand.
-pub fn run(_args: Args) -> anyhow::Result<()> {
-    anyhow::bail!("'sillage sim' is not available in this build yet")
+/// QoS class of every topic of the graph (stack and world), for the recorded bag.
+fn topic_qos(sim: &Sim, built: &sillage_sim::setup::BuiltStack, world: &dyn NodeCore) -> BTreeMap<String, Qos> {
+    let cfg = &sim.stack.config;
+    let placement = Placement { namespace: cfg.namespace.clone(), name: None, remaps: cfg.remaps.clone() };
+    let mut out = BTreeMap::new();
+    let mut add = |core: &dyn NodeCore| {
+        for p in core.inputs().into_iter().chain(core.outputs()) {
+            out.entry(remap_topic(&p.topic, &placement, core.name())).or_insert(p.qos);
+        }
+    };
+    for (_, i) in &built.nodes {
+        if let Some(n) = built.executor.node(*i) {
+            add(n);
+        }
+    }
+    add(world);
+    out
+}
+
+fn progress_bar(args: &Args) -> Option<indicatif::ProgressBar> {
+    if args.quiet {
+        return None;
+    }
+    let bar = indicatif::ProgressBar::new(args.episodes as u64);
+    let style = indicatif::ProgressStyle::with_template("{spinner} sim [{bar:40}] {pos}/{len} episodes, {elapsed} elapsed, eta {eta}")
+        .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar());
+    bar.set_style(style.progress_chars("=> "));
+    Some(bar)
+}
+
+/// Runs `sillage sim`.
+pub fn run(args: Args) -> Result<()> {
+    let started = Instant::now();
+    anyhow::ensure!(args.episodes > 0, "--episodes must be at least 1");
+    let scenario = Scenario::from_path(&args.scenario)?;
+    let sim = Sim {
+        stack: StackSetup { config: StackConfig { params_file: args.params.clone(), ..Default::default() }, strategy: args.strategy.clone() },
+        world: WorldParams { scenario: args.scenario.display().to_string(), ..Default::default() },
+        options: RunOptions { time_limit: args.time_limit, stop_on_false_declaration: args.stop_on_false_declaration, ..Default::default() },
+        scenario,
+    };
+    if let Some(t) = args.time_limit {
+        anyhow::ensure!(t.is_finite() && t > 0.0, "--time-limit must be > 0 [s], got {t}");
+    }
+    let out_dir = args.out.clone().unwrap_or_else(|| PathBuf::from("out").join(format!("sim-{}", sim.scenario.name)));
+    std::fs::create_dir_all(&out_dir).with_context(|| format!("creating {}", out_dir.display()))?;
+
+    // Build once up front: a bad parameter file or strategy fails here, before any episode.
+    let built = sim.build_stack()?;
+    let first = EpisodeSpec::nth(&sim.scenario, args.seed, 0);
+    let world0 = sim.world_node(&first, built.cmd_vel_type)?;
+    let qos = topic_qos(&sim, &built, &world0);
+    let world_section = sillage_core::params::to_value(world0.params());
+    let params_text = sillage_sim::setup::effective_params_text(&built, &sim.stack.config.namespace, &[(sillage_sim::NODE_NAME, world_section)]);
+    let params_path = out_dir.join("params.yaml");
+    std::fs::write(&params_path, &params_text).with_context(|| format!("writing {}", params_path.display()))?;
+    drop(built);
+
+    let jobs = args.jobs.unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get())).max(1);
+    let pool = rayon::ThreadPoolBuilder::new().num_threads(jobs).build()?;
+    let bar = progress_bar(&args);
+    let bag_dir = out_dir.join("bag");
+    let record = args.record;
+    let (results, map) = pool.install(|| {
+        rayon::join(
+            || {
+                (0..args.episodes)
+                    .into_par_iter()
+                    .map(|i| {
+                        let r = run_one(&sim, &args, i, record.then_some((&bag_dir, &qos)));
+                        if let Some(b) = &bar {
+                            b.inc(1);
+                        }
+                        r
+                    })
+                    .collect::<Vec<Result<(EpisodeResult, Option<String>)>>>()
+            },
+            || sim_plots::mean_map(&sim.scenario, first.seed, sim.time_limit()),
+        )
+    });
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
+    let mut episodes = Vec::with_capacity(results.len());
+    let mut outputs = vec![params_path.display().to_string()];
+    for r in results {
+        let (e, bag) = r?;
+        outputs.extend(bag);
+        episodes.push(e);
+    }
+    let summary = Summary::of(&episodes);
+    let wall = started.elapsed().as_secs_f64();
+    if !args.no_plots {
+        match sim_plots::write(&out_dir.join("plots"), args.plot_format, &sim.scenario, &episodes, map.as_ref()) {
+            Ok(paths) => outputs.extend(paths.iter().map(|p| p.display().to_string())),
+            Err(e) => eprintln!("warning: plots not drawn: {e}"),
+        }
+    }
+    let report = sim_report::Report::new(&sim, &args, jobs, wall, &summary, outputs);
+    let paths = report.write(&out_dir, &episodes)?;
+    print!("{}", report.text());
+    println!("report: {} (and {})", paths.0.display(), paths.1.display());
+    Ok(())
+}
+
+/// Episode `i`; episode 0 keeps a timeline for the plots and, with `record`, writes the bag.
+fn run_one(sim: &Sim, args: &Args, i: usize, record: Option<(&PathBuf, &BTreeMap<String, Qos>)>) -> Result<(EpisodeResult, Option<String>)> {
+    let spec = EpisodeSpec::nth(&sim.scenario, args.seed, i);
+    if i != 0 {
+        return Ok((sim.run_episode(spec, &mut |_| {})?, None));
+    }
+    let mut first = sim.clone();
+    first.options.timeline_period = Some(0.1);
+    let Some((dir, qos)) = record else { return Ok((first.run_episode(spec, &mut |_| {})?, None)) };
+    record_episode(&first, spec, dir, qos)
+}
+
+fn record_episode(sim: &Sim, spec: EpisodeSpec, dir: &Path, qos: &BTreeMap<String, Qos>) -> Result<(EpisodeResult, Option<String>)> {
+    let mut writer = BagWriter::create(dir, WriterOptions { overwrite: true, ..Default::default() })?;
+    let mut error = None;
+    let result = sim.run_episode(spec, &mut |r: &Record| {
+        if error.is_none() {
+            let q = qos.get(r.topic).copied().unwrap_or(Qos::Reliable);
+            if let Err(e) = writer.write_on(r.topic, r.stamp, r.msg, &[QosProfile::from(q)]) {
+                error = Some(e);
+            }
+        }
+    })?;
+    if let Some(e) = error {
+        return Err(e.into());
+    }
+    let s = writer.finish()?;
+    Ok((result, Some(format!("{} ({} messages, episode 0)", s.dir.display(), s.metadata.message_count))))
 }

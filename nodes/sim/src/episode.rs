@@ -111,6 +111,9 @@ pub struct EpisodeResult {
     pub outcome: Outcome,
     /// A correct declaration happened.
     pub success: bool,
+    /// The robot centre came within the success radius of a source at some time (declared or
+    /// not).
+    pub reached: bool,
     /// Time of the correct declaration [s].
     pub time_to_declare: Option<f64>,
     /// Whether the first declaration was correct (`None`: none).
@@ -364,6 +367,7 @@ impl Sim {
             spec,
             outcome,
             success: correct.is_some(),
+            reached: min_distance <= self.scenario.success_radius,
             time_to_declare: correct.map(|d| d.t),
             first_declaration_correct: declarations.first().map(|d| d.correct),
             false_declarations: declarations.iter().filter(|d| !d.correct).count() as u32,

@@ -11,7 +11,7 @@
 
 use crate::error::SimError;
 use serde_yaml::{Mapping, Value};
-use sillage_core::executor::{resolve_topic, Executor};
+use sillage_core::executor::{resolve_topic, Executor, Placement};
 use sillage_core::time::SECOND;
 use sillage_stack::{add_stack, node_fqn, NodeKind, StackConfig};
 use sillage_world::robot::DriveKind;
@@ -78,11 +78,11 @@ fn apply(ex: &mut Executor, index: usize, fqn: &str, what: &str, value: &Value) 
     node.set_params_yaml(value).map_err(|error| SimError::Override { node: fqn.to_string(), what: what.to_string(), error })
 }
 
-/// Builds the stack of `setup` for `scenario` (see the module docs).
-pub fn build_stack(setup: &StackSetup, scenario: &Scenario) -> Result<BuiltStack, SimError> {
+/// The stack of `setup` with the overrides applied as run-time changes (to read the effective
+/// parameters from).
+fn configured(setup: &StackSetup, scenario: &Scenario) -> Result<(Executor, Vec<(NodeKind, usize)>), SimError> {
     let cfg = &setup.config;
     let mut ex = Executor::new();
-    ex.enable_diagnostics(SECOND).map_err(|error| SimError::Executor { episode: 0, error })?;
     let idx = add_stack(&mut ex, cfg)?;
     let nodes: Vec<(NodeKind, usize)> = cfg.nodes.iter().copied().zip(idx).collect();
     let find = |k: NodeKind| nodes.iter().find(|(kind, _)| *kind == k).map(|(_, i)| *i);
@@ -96,27 +96,54 @@ pub fn build_stack(setup: &StackSetup, scenario: &Scenario) -> Result<BuiltStack
         let value = map(vec![("strategy", Value::from(name.as_str()))]);
         apply(&mut ex, arbiter, &node_fqn(NodeKind::Arbiter, &cfg.namespace), "strategy", &value)?;
     }
-    let topic = resolve_topic("cmd_vel", &cfg.namespace, NodeKind::Arbiter.name());
-    let cmd_vel_type = ex.topic_type(&topic).ok_or(SimError::MissingNode("arbiter"))?;
-    Ok(BuiltStack { executor: ex, nodes, arbiter, cmd_vel_type })
+    Ok((ex, nodes))
 }
 
-/// A ROS 2 parameter file with the current parameters of every node of `built` (keyed by the
-/// fully qualified node name), plus `extra` sections (e.g. the world node's).
-pub fn effective_params_text(built: &BuiltStack, namespace: &str, extra: &[(&str, Value)]) -> String {
+/// Builds the stack of `setup` for `scenario` (see the module docs): the overrides are merged
+/// into the parameters first and every node is then built from that parameter text, exactly
+/// as `sillage replay --params` builds it from [`effective_params_text`] (so no node carries a
+/// trace of a run-time change).
+pub fn build_stack(setup: &StackSetup, scenario: &Scenario) -> Result<BuiltStack, SimError> {
+    let cfg = &setup.config;
+    let (probe, nodes) = configured(setup, scenario)?;
+    let text = sections_text(&probe, &nodes, &cfg.namespace, &[]);
+    let mut ex = Executor::new();
+    ex.enable_diagnostics(SECOND).map_err(|error| SimError::Executor { episode: 0, error })?;
+    let placement = Placement { namespace: cfg.namespace.clone(), name: None, remaps: cfg.remaps.clone() };
+    let mut built_nodes = Vec::new();
+    for (kind, _) in &nodes {
+        let core = kind
+            .build_from_str(Some(&text), "(effective parameters)", &node_fqn(*kind, &cfg.namespace))
+            .map_err(|e| SimError::Stack(e.into()))?;
+        let i = ex.add_placed(core, &placement).map_err(|e| SimError::Stack(e.into()))?;
+        built_nodes.push((*kind, i));
+    }
+    let arbiter = built_nodes.iter().find(|(k, _)| *k == NodeKind::Arbiter).map(|(_, i)| *i).ok_or(SimError::MissingNode("arbiter"))?;
+    let topic = resolve_topic("cmd_vel", &cfg.namespace, NodeKind::Arbiter.name());
+    let cmd_vel_type = ex.topic_type(&topic).ok_or(SimError::MissingNode("arbiter"))?;
+    Ok(BuiltStack { executor: ex, nodes: built_nodes, arbiter, cmd_vel_type })
+}
+
+fn sections_text(ex: &Executor, nodes: &[(NodeKind, usize)], namespace: &str, extra: &[(&str, Value)]) -> String {
     let mut doc = Mapping::new();
     let mut section = |key: String, params: Value| {
         doc.insert(Value::from(key), map(vec![("ros__parameters", params)]));
     };
-    for (kind, i) in &built.nodes {
-        if let Some(n) = built.executor.node(*i) {
+    for (kind, i) in nodes {
+        if let Some(n) = ex.node(*i) {
             section(node_fqn(*kind, namespace), n.params_yaml());
         }
     }
     for (key, v) in extra {
         section((*key).to_string(), v.clone());
     }
-    let body = serde_yaml::to_string(&Value::Mapping(doc)).unwrap_or_default();
+    serde_yaml::to_string(&Value::Mapping(doc)).unwrap_or_default()
+}
+
+/// A ROS 2 parameter file with the current parameters of every node of `built` (keyed by the
+/// fully qualified node name), plus `extra` sections (e.g. the world node's).
+pub fn effective_params_text(built: &BuiltStack, namespace: &str, extra: &[(&str, Value)]) -> String {
+    let body = sections_text(&built.executor, &built.nodes, namespace, extra);
     format!(
         "# Effective parameters of a `sillage sim` run: the parameter file, the robot geometry of the\n\
          # scenario and the strategy override applied. `sillage replay BAG --params THIS_FILE` rebuilds\n\

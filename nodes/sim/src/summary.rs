@@ -79,6 +79,10 @@ pub struct Summary {
     pub success_rate: f64,
     /// Wilson 95 % interval of the success rate (low, high).
     pub success_wilson95: (f64, f64),
+    /// Episodes in which the robot came within the success radius (declared or not).
+    pub reached: usize,
+    /// Wilson 95 % interval of the reach rate (low, high).
+    pub reached_wilson95: (f64, f64),
     /// Episodes whose first declaration was correct.
     pub first_declaration_correct: usize,
     /// Outcome counts.
@@ -132,6 +136,8 @@ impl Summary {
             successes: ok.len(),
             success_rate: if n > 0 { ok.len() as f64 / n as f64 } else { 0.0 },
             success_wilson95: wilson(ok.len(), n, Z95),
+            reached: results.iter().filter(|r| r.reached).count(),
+            reached_wilson95: wilson(results.iter().filter(|r| r.reached).count(), n, Z95),
             first_declaration_correct: results.iter().filter(|r| r.first_declaration_correct == Some(true)).count(),
             outcomes,
             time_to_declare: Quantiles::of(ok.iter().filter_map(|r| r.time_to_declare)),
