@@ -64,7 +64,7 @@ impl ParamValue {
         match self {
             ParamValue::Bool(b) => b.to_string(),
             ParamValue::Int(i) => i.to_string(),
-            ParamValue::Float(x) => format!("{x}"),
+            ParamValue::Float(x) => format!("{x:?}"),
             ParamValue::Text(s) => s.clone(),
         }
     }
