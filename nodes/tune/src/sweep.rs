@@ -210,6 +210,9 @@ pub struct LoadedSweep {
     pub base_text: Option<String>,
     /// Parameter types, in `sweep.parameters` order.
     pub types: Vec<ParamTypeName>,
+    /// FNV-1a digest of each scenario file's bytes (empty when not read from files).
+    #[serde(default)]
+    pub scenario_digests: Vec<String>,
 }
 
 /// [`ParamType`] in serialisable form.
@@ -249,21 +252,35 @@ impl LoadedSweep {
             None => None,
         };
         let stem = path.file_stem().and_then(|s| s.to_str()).unwrap_or("sweep").to_string();
-        LoadedSweep::from_parts(sweep, path.display().to_string(), stem, base_text, metrics)
+        let mut digests = Vec::new();
+        for p in &sweep.evaluate.scenarios {
+            let bytes = std::fs::read(p).map_err(|e| TuneError::io(p, e))?;
+            digests.push(format!("{:016x}", fnv1a(&bytes)));
+        }
+        let mut loaded = LoadedSweep::from_parts(sweep, path.display().to_string(), stem, base_text, metrics)?;
+        loaded.scenario_digests = digests;
+        Ok(loaded)
     }
 
     /// Validates an already parsed sweep (paths as given).
     pub fn from_parts(sweep: Sweep, file: String, stem: String, base_text: Option<String>, metrics: &[&str]) -> Result<LoadedSweep, TuneError> {
         let types = validate(&sweep, &file, metrics)?;
         let name = sweep.name.clone().unwrap_or(stem);
-        Ok(LoadedSweep { sweep, name, file, base_text, types: types.into_iter().map(|t| type_name(t).to_string()).collect() })
+        let types = types.into_iter().map(|t| type_name(t).to_string()).collect();
+        Ok(LoadedSweep { sweep, name, file, base_text, types, scenario_digests: Vec::new() })
     }
 
-    /// A stable fingerprint of everything that decides the results (16 hex digits).
+    /// A stable fingerprint of everything that decides the results (16 hex digits): the
+    /// sweep, the base parameter text and the scenario files' contents, not where the files
+    /// are (shards may run on machines with other paths).
     pub fn fingerprint(&self) -> String {
         let mut s = self.sweep.clone();
         s.name = None;
-        let canon = serde_json::to_string(&(&s, &self.base_text)).unwrap_or_default();
+        s.base_params = None;
+        let names = |v: &mut Vec<PathBuf>| v.iter_mut().for_each(|p| *p = p.file_name().map(PathBuf::from).unwrap_or_default());
+        names(&mut s.evaluate.scenarios);
+        names(&mut s.evaluate.bags);
+        let canon = serde_json::to_string(&(&s, &self.base_text, &self.scenario_digests)).unwrap_or_default();
         format!("{:016x}", fnv1a(canon.as_bytes()))
     }
 }

@@ -28,3 +28,23 @@ fn shipped_sweeps_load_and_their_points_build_the_stack() {
     }
     assert!(n > 0, "no sweep in {}", dir.display());
 }
+
+#[test]
+fn the_fingerprint_follows_file_contents_not_paths() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).join("../../config");
+    let tmp = Path::new(env!("CARGO_TARGET_TMPDIR")).join("tune-fingerprint");
+    let _ = std::fs::remove_dir_all(&tmp);
+    std::fs::create_dir_all(tmp.join("sweeps")).unwrap_or_else(|e| panic!("{e}"));
+    std::fs::create_dir_all(tmp.join("scenarios")).unwrap_or_else(|e| panic!("{e}"));
+    for f in ["sweeps/demo_declare.yaml", "scenarios/demo.yaml", "sillage.yaml"] {
+        std::fs::copy(root.join(f), tmp.join(f)).unwrap_or_else(|e| panic!("{f}: {e}"));
+    }
+    let metrics = ["success", "time", "min_distance"];
+    let fp = |p: &Path| LoadedSweep::load(p, &metrics).unwrap_or_else(|e| panic!("{e}")).fingerprint();
+    let shipped = fp(&root.join("sweeps/demo_declare.yaml"));
+    assert_eq!(fp(&tmp.join("sweeps/demo_declare.yaml")), shipped, "same files elsewhere");
+    let scenario = tmp.join("scenarios/demo.yaml");
+    let text = std::fs::read_to_string(&scenario).unwrap_or_default().replace("time_limit: 240.0", "time_limit: 200.0");
+    std::fs::write(&scenario, text).unwrap_or_else(|e| panic!("{e}"));
+    assert_ne!(fp(&tmp.join("sweeps/demo_declare.yaml")), shipped, "a changed scenario is another sweep");
+}
