@@ -66,7 +66,13 @@ fn term(records: &[&Record], t: &crate::sweep::Term, seed: u64) -> TermEstimate 
     let (estimate, (low, high)) = match t.stat {
         Stat::Rate => {
             let k = v.iter().filter(|x| **x > 0.5).count();
-            if n == 0 { (f64::NAN, (0.0, 1.0)) } else { (k as f64 / n as f64, wilson(k, n, Z95)) }
+            if n == 0 {
+                (f64::NAN, (0.0, 1.0))
+            } else {
+                // Exact ends at k = 0 and k = n (the closed form rounds to 1e-17 there).
+                let (lo, hi) = wilson(k, n, Z95);
+                (k as f64 / n as f64, (if k == 0 { 0.0 } else { lo }, if k == n { 1.0 } else { hi }))
+            }
         }
         Stat::Median => (median(&v).unwrap_or(f64::NAN), bootstrap(&v, median, seed).unwrap_or((f64::NAN, f64::NAN))),
         Stat::Mean => (mean(&v).unwrap_or(f64::NAN), bootstrap(&v, mean, seed).unwrap_or((f64::NAN, f64::NAN))),
