@@ -104,6 +104,8 @@ impl<'a> Report<'a> {
         let _ = writeln!(out, "outcomes               {}", outcomes.join(", "));
         quantiles("time to declare", " s", &s.time_to_declare, &mut out);
         quantiles("path ratio", "", &s.path_ratio, &mut out);
+        quantiles("time to reach", " s", &s.time_to_reach, &mut out);
+        quantiles("path ratio to reach", "", &s.reach_path_ratio, &mut out);
         quantiles("closest approach", " m", &s.min_distance, &mut out);
         let _ = writeln!(
             out,

@@ -116,6 +116,10 @@ pub struct EpisodeResult {
     pub reached: bool,
     /// Time of the correct declaration [s].
     pub time_to_declare: Option<f64>,
+    /// Time the robot centre first came within the success radius of a source [s].
+    pub time_to_reach: Option<f64>,
+    /// Path length until then over the straight-line distance.
+    pub reach_path_ratio: Option<f64>,
     /// Whether the first declaration was correct (`None`: none).
     pub first_declaration_correct: Option<bool>,
     /// Every declaration.
@@ -287,6 +291,7 @@ impl Sim {
         let mut min_distance = world.world().nearest_source_distance();
         let mut outbox = Outbox::new();
         let mut stalled_reason = None;
+        let mut reach: Option<(f64, f64)> = None;
 
         run_to(&mut ex, t0, &mut tap, spec.index)?;
         world.initial_outputs(t0, &mut outbox);
@@ -308,6 +313,9 @@ impl Sim {
             let w = world.world();
             let p = w.robot_pose();
             min_distance = min_distance.min(w.nearest_source_distance());
+            if reach.is_none() && min_distance <= self.scenario.success_radius {
+                reach = Some((secs(t - t0), w.robot().distance_travelled()));
+            }
             if path.last().is_some_and(|q: &[f64; 2]| (q[0] - p.x).hypot(q[1] - p.y) >= path_step) {
                 path.push([p.x, p.y]);
                 if path.len() > MAX_PATH {
@@ -367,7 +375,9 @@ impl Sim {
             spec,
             outcome,
             success: correct.is_some(),
-            reached: min_distance <= self.scenario.success_radius,
+            reached: reach.is_some(),
+            time_to_reach: reach.map(|r| r.0),
+            reach_path_ratio: reach.map(|r| r.1 / straight).filter(|x| x.is_finite()),
             time_to_declare: correct.map(|d| d.t),
             first_declaration_correct: declarations.first().map(|d| d.correct),
             false_declarations: declarations.iter().filter(|d| !d.correct).count() as u32,

@@ -1,6 +1,6 @@
 //! The stack as the simulator runs it: `sillage_stack::add_stack` with the user's parameter file
 //! (or the defaults), then the robot description taken from the scenario and an optional
-//! strategy override, applied as run-time parameter changes before the clock starts.
+//! strategy override, merged into the parameters before any node is built.
 //!
 //! Geometry from the scenario (it is the truth about the simulated robot, so it always wins
 //! over the parameter file): the bearing decoder's `channel_names`, `sensors.{names, x, y}`
@@ -73,48 +73,46 @@ pub fn geometry_overrides(s: &Scenario) -> Vec<(NodeKind, Value)> {
     vec![(NodeKind::BearingDecoder, bearing), (NodeKind::Arbiter, map(arbiter))]
 }
 
-fn apply(ex: &mut Executor, index: usize, fqn: &str, what: &str, value: &Value) -> Result<(), SimError> {
-    let node = ex.node_mut(index).ok_or(SimError::MissingNode("arbiter"))?;
-    node.set_params_yaml(value).map_err(|error| SimError::Override { node: fqn.to_string(), what: what.to_string(), error })
+/// Merges the dotted leaves of `overrides` into the nested parameter map `params`.
+fn merged(params: Value, overrides: &Value) -> Value {
+    sillage_core::params::flatten(overrides).into_iter().fold(params, |acc, (key, v)| sillage_core::params::set_key(&acc, &key, v))
 }
 
-/// The stack of `setup` with the overrides applied as run-time changes (to read the effective
-/// parameters from).
-fn configured(setup: &StackSetup, scenario: &Scenario) -> Result<(Executor, Vec<(NodeKind, usize)>), SimError> {
-    let cfg = &setup.config;
-    let mut ex = Executor::new();
-    let idx = add_stack(&mut ex, cfg)?;
-    let nodes: Vec<(NodeKind, usize)> = cfg.nodes.iter().copied().zip(idx).collect();
-    let find = |k: NodeKind| nodes.iter().find(|(kind, _)| *kind == k).map(|(_, i)| *i);
-    for (kind, value) in geometry_overrides(scenario) {
-        if let Some(i) = find(kind) {
-            apply(&mut ex, i, &node_fqn(kind, &cfg.namespace), "robot geometry from the scenario", &value)?;
-        }
-    }
-    let arbiter = find(NodeKind::Arbiter).ok_or(SimError::MissingNode("arbiter"))?;
-    if let Some(name) = &setup.strategy {
-        let value = map(vec![("strategy", Value::from(name.as_str()))]);
-        apply(&mut ex, arbiter, &node_fqn(NodeKind::Arbiter, &cfg.namespace), "strategy", &value)?;
-    }
-    Ok((ex, nodes))
-}
-
-/// Builds the stack of `setup` for `scenario` (see the module docs): the overrides are merged
-/// into the parameters first and every node is then built from that parameter text, exactly
-/// as `sillage replay --params` builds it from [`effective_params_text`] (so no node carries a
-/// trace of a run-time change).
+/// Builds the stack of `setup` for `scenario` (see the module docs): every node's parameters
+/// are read from the parameter file (or the defaults), the overrides are merged in, and each
+/// node is then built from that merged parameter text, exactly as `sillage replay --params`
+/// builds it from [`effective_params_text`].
 pub fn build_stack(setup: &StackSetup, scenario: &Scenario) -> Result<BuiltStack, SimError> {
     let cfg = &setup.config;
-    let (probe, nodes) = configured(setup, scenario)?;
-    let text = sections_text(&probe, &nodes, &cfg.namespace, &[]);
+    let mut probe = Executor::new();
+    let idx = add_stack(&mut probe, cfg)?;
+    let nodes: Vec<(NodeKind, usize)> = cfg.nodes.iter().copied().zip(idx).collect();
+    let mut overrides = geometry_overrides(scenario);
+    if let Some(name) = &setup.strategy {
+        overrides.push((NodeKind::Arbiter, map(vec![("strategy", Value::from(name.as_str()))])));
+    }
+    let mut doc = Mapping::new();
+    for (kind, i) in &nodes {
+        let mut params = probe.node(*i).map(|n| n.params_yaml()).unwrap_or(Value::Null);
+        for (_, v) in overrides.iter().filter(|(k, _)| k == kind) {
+            params = merged(params, v);
+        }
+        doc.insert(Value::from(node_fqn(*kind, &cfg.namespace)), map(vec![("ros__parameters", params)]));
+    }
+    let text = serde_yaml::to_string(&Value::Mapping(doc)).unwrap_or_default();
     let mut ex = Executor::new();
     ex.enable_diagnostics(SECOND).map_err(|error| SimError::Executor { episode: 0, error })?;
     let placement = Placement { namespace: cfg.namespace.clone(), name: None, remaps: cfg.remaps.clone() };
     let mut built_nodes = Vec::new();
     for (kind, _) in &nodes {
-        let core = kind
-            .build_from_str(Some(&text), "(effective parameters)", &node_fqn(*kind, &cfg.namespace))
-            .map_err(|e| SimError::Stack(e.into()))?;
+        let fqn = node_fqn(*kind, &cfg.namespace);
+        let core = kind.build_from_str(Some(&text), "(parameters with the scenario's geometry and the strategy override)", &fqn).map_err(|e| {
+            let what = if setup.strategy.is_some() { "robot geometry from the scenario or strategy" } else { "robot geometry from the scenario" };
+            match e {
+                sillage_core::params::ParamFileError::Param { error, .. } => SimError::Override { node: fqn.clone(), what: what.into(), error },
+                other => SimError::Stack(other.into()),
+            }
+        })?;
         let i = ex.add_placed(core, &placement).map_err(|e| SimError::Stack(e.into()))?;
         built_nodes.push((*kind, i));
     }

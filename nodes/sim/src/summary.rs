@@ -91,6 +91,10 @@ pub struct Summary {
     pub time_to_declare: Option<Quantiles>,
     /// Path length over straight-line distance, successful episodes.
     pub path_ratio: Option<Quantiles>,
+    /// Time to first come within the success radius [s], episodes that did.
+    pub time_to_reach: Option<Quantiles>,
+    /// Path length until then over the straight-line distance, episodes that did.
+    pub reach_path_ratio: Option<Quantiles>,
     /// Smallest distance to the source reached [m], all episodes.
     pub min_distance: Option<Quantiles>,
     /// False declarations, all episodes.
@@ -142,6 +146,8 @@ impl Summary {
             outcomes,
             time_to_declare: Quantiles::of(ok.iter().filter_map(|r| r.time_to_declare)),
             path_ratio: Quantiles::of(ok.iter().map(|r| r.path_ratio)),
+            time_to_reach: Quantiles::of(results.iter().filter_map(|r| r.time_to_reach)),
+            reach_path_ratio: Quantiles::of(results.iter().filter_map(|r| r.reach_path_ratio)),
             min_distance: Quantiles::of(results.iter().map(|r| r.min_distance)),
             false_declarations: results.iter().map(|r| u64::from(r.false_declarations)).sum(),
             halts: results.iter().map(|r| u64::from(r.halts)).sum(),
