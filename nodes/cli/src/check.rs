@@ -3,7 +3,8 @@
 //! problem and fails if there is any error (or any warning with `--strict`).
 //!
 //! The kind of each file comes from its name and content: `*.xml` is a launch file; a YAML
-//! file under a `scenarios/` folder is a scenario; other YAML with `ros__parameters` sections
+//! file under a `scenarios/` folder is a scenario, one under a `sweeps/` folder a sweep file
+//! of `sillage tune`; other YAML with `ros__parameters` sections
 //! is a parameter file. `--kind` overrides the guess. A folder stands for every `*.xml`,
 //! `*.yaml` and `*.yml` file inside it (recursively; `SCHEMA.md` and other files are skipped).
 
@@ -20,6 +21,8 @@ pub enum Kind {
     Launch,
     /// Simulation scenario (config/scenarios/*.yaml).
     Scenario,
+    /// Sweep file of `sillage tune` (config/sweeps/*.yaml).
+    Sweep,
 }
 
 /// Arguments of `sillage check`.
@@ -63,6 +66,9 @@ fn guess(path: &Path) -> Result<Kind, String> {
     if path.components().any(|c| c.as_os_str() == "scenarios") {
         return Ok(Kind::Scenario);
     }
+    if path.components().any(|c| c.as_os_str() == "sweeps") {
+        return Ok(Kind::Sweep);
+    }
     let text = std::fs::read_to_string(path).map_err(|e| format!("cannot read: {e}"))?;
     if params_file::looks_like_params(&text) {
         Ok(Kind::Params)
@@ -91,6 +97,10 @@ pub fn check_path(path: &Path, kind: Option<Kind>) -> (Option<Kind>, Vec<Problem
         Kind::Params => params_file::check_file(path),
         Kind::Launch => launch_file::check_file(path),
         Kind::Scenario => check_scenario(path),
+        Kind::Sweep => match crate::tune::check_sweep(path) {
+            Ok(()) => Vec::new(),
+            Err(message) => vec![Problem { file: file.clone(), key: String::new(), severity: Severity::Error, message }],
+        },
     };
     (Some(kind), problems)
 }
@@ -118,6 +128,7 @@ pub fn run(args: Args) -> anyhow::Result<()> {
                 Some(Kind::Params) => "parameter file",
                 Some(Kind::Launch) => "launch file",
                 Some(Kind::Scenario) => "scenario",
+                Some(Kind::Sweep) => "sweep file",
                 None => "file",
             };
             println!("{}: ok ({kind})", path.display());

@@ -145,3 +145,8 @@ fn finish(out: &Path, sweep: &LoadedSweep, records: Vec<sillage_tune::Record>, p
     }
     Ok(())
 }
+
+/// Validates a sweep file as `sillage tune` would load it (for `sillage check`).
+pub fn check_sweep(path: &std::path::Path) -> Result<(), String> {
+    LoadedSweep::load(path, sim_eval::METRICS).map(|_| ()).map_err(|e| e.to_string())
+}
