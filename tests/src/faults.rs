@@ -209,6 +209,19 @@ pub fn clock_jump(mut stream: Stream, at: Nanos, by: Nanos) -> Stream {
     stream
 }
 
+/// A bag played in a loop: the messages arriving before `until`, then the same messages again
+/// with their header stamps unchanged (the stamps jump back at the loop) and arrival times
+/// moved on by `until - first arrival` (the player's receive clock keeps running).
+pub fn bag_loop(stream: &[Input], until: Nanos) -> Stream {
+    let first: Stream = stream.iter().filter(|m| m.at < until).cloned().collect();
+    let Some(t0) = first.first().map(|m| m.at) else { return first };
+    let again = first.iter().cloned().map(|mut m| {
+        m.at += until - t0;
+        m
+    });
+    first.iter().cloned().chain(again).collect()
+}
+
 /// Inserts `msg` on `topic` arriving at `at` (after the messages that arrive at the same
 /// time), e.g. an `e_stop` press or an `e_stop_reset`.
 pub fn insert(mut stream: Stream, at: Nanos, topic: &str, msg: Msg) -> Stream {

@@ -365,3 +365,26 @@ fn a_backward_clock_jump_restarts_the_stamp_orders_and_the_encoder() {
     assert!(halts.is_empty(), "{halts:?}");
 }
 
+
+#[test]
+#[ignore = "bug in sillage-plume-estimator: after a bag loop or restarted simulation (stamps jump back, \
+            arrivals go on) every chem sample is dropped as out of order, for good; the encoder restarts instead"]
+fn a_bag_loop_keeps_the_plume_estimator_fed() {
+    // The arbiter documents "a restarted simulation or bag loop" as a case it handles, and the
+    // encoder restarts on a step back of more than `backward_reset`; the plume estimator only
+    // drops samples "at or before the last accepted one" (nodes/plume_estimator/src/node.rs,
+    // step 3), so once the stamps have jumped back it drops every sample until they pass the
+    // old maximum, which in a loop they never do: its input diagnostic turns STALE ("no sample
+    // for N s") while samples arrive at 50 Hz, and plume_features stays NaN.
+    let (st, t0) = demo();
+    let looped = bag_loop(&st, t0 + 30 * S);
+    let r = go(&looped);
+    assert_guard(&r, &[]);
+    let (_, enc) = r.diagnostics("event_encoder: input").into_iter().last().expect("encoder diagnostics");
+    assert_eq!(diag_value(enc, "backward_resets"), Some("1"), "the encoder restarts at the loop");
+    // In the first pass the features are known 15.5 s after the start; after the loop (at 30 s)
+    // they must be known again before the end (60 s).
+    let known_again = r.on("/plume_features").filter(|m| m.stamp > t0 + 50 * S).any(|m| matches!(&m.msg, Msg::PlumeFeatures(f) if f.bout_rate.is_finite()));
+    let (_, pin) = r.diagnostics("plume_estimator: input").into_iter().last().expect("plume diagnostics");
+    assert!(known_again, "plume_features still NaN 20 s after the loop; plume_estimator: input says '{}' (out_of_order {:?})", pin.message, diag_value(pin, "out_of_order"));
+}
