@@ -45,6 +45,7 @@ fn out_dir(name: &str) -> PathBuf {
 }
 
 #[test]
+#[allow(clippy::result_large_err)] // the replay callback's error type is sillage-bag's
 fn same_seed_same_messages_and_replay_reproduces_the_outputs() {
     let sim = demo_sim(45.0);
     let spec = EpisodeSpec::nth(&sim.scenario, 7, 0);
