@@ -88,7 +88,6 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         last = m.log_time;
     }
     ex.run_until(last, &mut sink)?;
-    drop(sink);
     if let Some(e) = write_error {
         return Err(format!("writing the output bag: {e}").into());
     }
