@@ -9,7 +9,11 @@
 #   1. libFuzzer through cargo-fuzz (installed from crates.io if missing) on a nightly toolchain;
 #   2. the same on the stable toolchain with RUSTC_BOOTSTRAP=1 (cargo-fuzz's -Z flags);
 #   3. the coverage-free mutation driver examples/drive.rs (FUZZ_ENGINE=driver forces it).
+# FUZZ_FLAGS adds libFuzzer options, e.g. FUZZ_FLAGS=-malloc_limit_mb=8192 to get past a known
+# out-of-memory finding.
 # Prints one line per target: executions, time, crashes; exit status 1 if any target crashed.
+# Each target's log is kept in artifacts/<target>/run.log; the build comes before the timings
+# (libFuzzer's own build step inside `cargo fuzz run` is then a no-op).
 set -euo pipefail
 here="$(cd "$(dirname "${BASH_SOURCE[0]}")" && pwd)"
 root="$(cd "$here/../.." && pwd)"
@@ -80,14 +84,15 @@ status=0
 summary=()
 for t in "${targets[@]}"; do
     seed "$t"
-    log="$(mktemp)"
+    mkdir -p "artifacts/$t"
+    log="artifacts/$t/run.log"
     start=$(date +%s.%N)
     case "$engine" in
         nightly | bootstrap)
             pre=(cargo +nightly fuzz)
             [[ "$engine" == bootstrap ]] && pre=(env RUSTC_BOOTSTRAP=1 cargo fuzz)
             set +e
-            "${pre[@]}" run -O "$t" "corpus/$t" -- -runs="$runs" -rss_limit_mb=2048 -timeout=20 -max_len=1048576 -print_final_stats=1 > "$log" 2>&1
+            "${pre[@]}" run -O "$t" "corpus/$t" -- -runs="$runs" -rss_limit_mb=2048 -timeout=20 -max_len=1048576 -print_final_stats=1 ${FUZZ_FLAGS:-} > "$log" 2>&1
             rc=$?
             set -e
             done_runs=$(grep -oE "^Done [0-9]+ runs" "$log" | grep -oE "[0-9]+" || true)
@@ -112,7 +117,6 @@ for t in "${targets[@]}"; do
     secs=$(python3 -c "print(f'{$(date +%s.%N) - $start:.1f}')")
     summary+=("$(printf '%-14s %-9s %10s executions %8s s  crashes: %s' "$t" "$engine" "${execs:-?}" "$secs" "$crashes")")
     [[ "$crashes" == 0 ]] || status=1
-    rm -f "$log"
 done
 printf '%s\n' "${summary[@]}"
 exit "$status"
