@@ -21,14 +21,7 @@ pub const MAX_TRANSITIONS: usize = 2_000;
 
 /// Name of a `SearchState.mode` value.
 pub fn mode_name(mode: u8) -> &'static str {
-    match mode {
-        SearchState::WAITING => "WAITING",
-        SearchState::SURGING => "SURGING",
-        SearchState::CASTING => "CASTING",
-        SearchState::DECLARED => "DECLARED",
-        SearchState::HALTED => "HALTED",
-        _ => "UNKNOWN",
-    }
+    SearchState::mode_name(mode)
 }
 
 /// A transition reason without its figures: parenthesised parts and numbers dropped.

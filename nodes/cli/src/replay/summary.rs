@@ -14,14 +14,7 @@ const MAX_TRANSITIONS: usize = 10_000;
 
 /// Name of a `SearchState.mode` value.
 pub fn mode_name(mode: u8) -> &'static str {
-    match mode {
-        SearchState::WAITING => "WAITING",
-        SearchState::SURGING => "SURGING",
-        SearchState::CASTING => "CASTING",
-        SearchState::DECLARED => "DECLARED",
-        SearchState::HALTED => "HALTED",
-        _ => "UNKNOWN",
-    }
+    SearchState::mode_name(mode)
 }
 
 /// One mode change.

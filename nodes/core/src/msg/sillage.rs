@@ -51,3 +51,17 @@ ros_message! {
     { header: Header, mode: u8, reason: String, heading_target: f64, contact_age: f64 }
     consts { WAITING: u8 = 0, SURGING: u8 = 1, CASTING: u8 = 2, DECLARED: u8 = 3, HALTED: u8 = 4 }
 }
+
+impl SearchState {
+    /// The name of a `mode` value (`"UNKNOWN"` for values outside the constants).
+    pub fn mode_name(mode: u8) -> &'static str {
+        match mode {
+            SearchState::WAITING => "WAITING",
+            SearchState::SURGING => "SURGING",
+            SearchState::CASTING => "CASTING",
+            SearchState::DECLARED => "DECLARED",
+            SearchState::HALTED => "HALTED",
+            _ => "UNKNOWN",
+        }
+    }
+}
