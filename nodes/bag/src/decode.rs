@@ -12,7 +12,7 @@ pub type DecodeFn = fn(&[u8]) -> Result<Msg, CdrError>;
 macro_rules! table {
     ($($v:ident),*) => {
         /// Every topic type of the vocabulary with its decoder.
-        pub static DECODERS: &[(&str, DecodeFn)] = &[ $( (<$v as RosMessage>::TYPE_NAME, |b| cdr::decode::<$v>(b).map(Msg::$v)), )* ];
+        pub static DECODERS: &[(&str, DecodeFn)] = &[ $( (<$v as RosMessage>::TYPE_NAME, |b| cdr::decode::<$v>(b).map(Msg::from)), )* ];
     };
 }
 table!(
@@ -22,8 +22,7 @@ table!(
 
 /// The canonical type name and decoder of a topic type (`pkg/msg/Type` or `pkg/Type`).
 pub fn decoder(type_name: &str) -> Option<(&'static str, DecodeFn)> {
-    let t = sillage_core::any::normalize_type_name(type_name);
-    DECODERS.iter().find(|(n, _)| *n == t.as_ref()).copied()
+    DECODERS.iter().find(|(n, _)| sillage_core::any::same_type(type_name, n)).copied()
 }
 
 #[cfg(test)]

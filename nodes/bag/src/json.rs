@@ -26,7 +26,7 @@ mod tests {
     #[test]
     fn float32_is_widened_exactly_and_fields_keep_ros_names() {
         let m = LaserScan { angle_min: 0.1, ranges: vec![1.5, 0.1], ..Default::default() };
-        let v = msg_to_json(&Msg::LaserScan(m));
+        let v = msg_to_json(&Msg::from(m));
         assert_eq!(v["angle_min"].as_f64(), Some(f64::from(0.1f32)));
         assert_eq!(v["ranges"][1].as_f64(), Some(f64::from(0.1f32)));
         assert_eq!(v["header"]["stamp"]["nanosec"].as_u64(), Some(0));

@@ -1,17 +1,33 @@
 //! [`Msg`]: the closed set of messages that travel between node cores, with decoding and
 //! encoding by ROS type name (what bag readers and raw transports need).
+//!
+//! Variants whose message is large (Odometry with its two 36-element covariances, LaserScan)
+//! hold it in a `Box`, so a `Msg` stays small (about 100 bytes) as it moves through the
+//! executor's queues: the enum is as large as its largest variant.
 
 use crate::cdr::{self, CdrError};
 use crate::msg::*;
 use crate::ros_type::RosMessage;
 
+/// The payload type of a variant: the message itself, or boxed.
+macro_rules! payload {
+    (inline, $t:ty) => { $t };
+    (boxed, $t:ty) => { Box<$t> };
+}
+
+/// Wraps a message into its variant's payload.
+macro_rules! wrap {
+    (inline, $m:expr) => { $m };
+    (boxed, $m:expr) => { Box::new($m) };
+}
+
 macro_rules! vocabulary {
-    ( $( $variant:ident ),* $(,)? ) => {
+    ( $( $variant:ident : $store:ident ),* $(,)? ) => {
         /// Any message of the vocabulary.
         #[derive(Debug, Clone, PartialEq)]
-        pub enum Msg { $( $variant($variant), )* }
+        pub enum Msg { $( $variant(payload!($store, $variant)), )* }
 
-        $( impl From<$variant> for Msg { fn from(m: $variant) -> Msg { Msg::$variant(m) } } )*
+        $( impl From<$variant> for Msg { fn from(m: $variant) -> Msg { Msg::$variant(wrap!($store, m)) } } )*
 
         impl Msg {
             /// The full ROS type name of the message inside.
@@ -21,22 +37,25 @@ macro_rules! vocabulary {
 
             /// Encodes the message as a CDR buffer with header into `out`.
             pub fn encode_into(&self, out: &mut Vec<u8>) -> Result<(), CdrError> {
-                match self { $( Msg::$variant(m) => cdr::encode_into(m, out), )* }
+                match self { $( Msg::$variant(m) => cdr::encode_into::<$variant>(m, out), )* }
+            }
+
+            /// Appends the message's CDR buffer with header to `out` (kept as it is).
+            pub fn append_to(&self, out: &mut Vec<u8>) -> Result<(), CdrError> {
+                match self { $( Msg::$variant(m) => cdr::append_to::<$variant>(m, out), )* }
             }
 
             /// Decodes a CDR buffer of the named type.
             pub fn decode(type_name: &str, buf: &[u8]) -> Result<Msg, CdrError> {
-                let t = normalize_type_name(type_name);
-                $( if t == <$variant as RosMessage>::TYPE_NAME {
-                    return cdr::decode::<$variant>(buf).map(Msg::$variant);
+                $( if same_type(type_name, <$variant as RosMessage>::TYPE_NAME) {
+                    return cdr::decode::<$variant>(buf).map(Msg::from);
                 } )*
                 Err(CdrError::UnknownType(type_name.to_string()))
             }
 
             /// Whether the named type is part of the vocabulary.
             pub fn is_known_type(type_name: &str) -> bool {
-                let t = normalize_type_name(type_name);
-                [ $( <$variant as RosMessage>::TYPE_NAME ),* ].contains(&t.as_ref())
+                [ $( <$variant as RosMessage>::TYPE_NAME ),* ].iter().any(|t| same_type(type_name, t))
             }
         }
 
@@ -60,29 +79,46 @@ macro_rules! vocabulary {
 }
 
 vocabulary!(
-    ChemSample,
-    OdorEventArray,
-    OdorBearing,
-    PlumeFeatures,
-    SearchState,
-    Vector3Stamped,
-    Odometry,
-    Bool,
-    Empty,
-    LaserScan,
-    Twist,
-    TwistStamped,
-    PointStamped,
-    DiagnosticArray,
-    Clock,
+    ChemSample: inline,
+    OdorEventArray: inline,
+    OdorBearing: inline,
+    PlumeFeatures: inline,
+    SearchState: inline,
+    Vector3Stamped: inline,
+    Odometry: boxed,
+    Bool: inline,
+    Empty: inline,
+    LaserScan: boxed,
+    Twist: inline,
+    TwistStamped: inline,
+    PointStamped: inline,
+    DiagnosticArray: inline,
+    Clock: inline,
 );
 
-/// `pkg/Type` -> `pkg/msg/Type`; full names pass through.
+/// `pkg/Type` -> `pkg/msg/Type`; full names pass through (without allocating).
 pub fn normalize_type_name(type_name: &str) -> std::borrow::Cow<'_, str> {
-    let parts: Vec<&str> = type_name.split('/').collect();
-    match parts.as_slice() {
-        [p, t] => std::borrow::Cow::Owned(format!("{p}/msg/{t}")),
-        _ => std::borrow::Cow::Borrowed(type_name),
+    match short_parts(type_name) {
+        Some((p, t)) => std::borrow::Cow::Owned(format!("{p}/msg/{t}")),
+        None => std::borrow::Cow::Borrowed(type_name),
+    }
+}
+
+/// `Some((pkg, Type))` for a short name `pkg/Type` (exactly one slash).
+fn short_parts(type_name: &str) -> Option<(&str, &str)> {
+    let (p, t) = type_name.split_once('/')?;
+    (!t.contains('/')).then_some((p, t))
+}
+
+/// Whether `type_name` (full `pkg/msg/Type` or short `pkg/Type`) names the full type
+/// `canonical`, compared without allocating.
+pub fn same_type(type_name: &str, canonical: &str) -> bool {
+    if type_name == canonical {
+        return true;
+    }
+    match (short_parts(type_name), canonical.split_once("/msg/")) {
+        (Some((p, t)), Some((cp, ct))) => p == cp && t == ct,
+        _ => false,
     }
 }
 
@@ -135,6 +171,27 @@ mod tests {
             assert!(full_definition(m.type_name()).is_some(), "{}", m.type_name());
         }
         assert!(Msg::is_known_type("std_msgs/Bool"));
+        assert!(Msg::is_known_type("std_msgs/msg/Bool"));
+        assert!(!Msg::is_known_type("std_msgs/msg/Boo"));
+        assert!(!Msg::is_known_type("std_msgs/Bool/x"));
+        assert!(matches!(Msg::decode("nav_msgs/Odometry", &Msg::from(Odometry::default()).encode().expect("encodes")), Ok(Msg::Odometry(_))));
         assert!(matches!(Msg::decode("foo/msg/Bar", &[0, 1, 0, 0]), Err(CdrError::UnknownType(_))));
+    }
+
+    #[test]
+    fn type_names_compare_short_and_full() {
+        assert!(same_type("nav_msgs/Odometry", "nav_msgs/msg/Odometry"));
+        assert!(same_type("nav_msgs/msg/Odometry", "nav_msgs/msg/Odometry"));
+        assert!(!same_type("nav_msgs/Odom", "nav_msgs/msg/Odometry"));
+        assert!(!same_type("geometry_msgs/Odometry", "nav_msgs/msg/Odometry"));
+        assert!(!same_type("Odometry", "nav_msgs/msg/Odometry"));
+        assert_eq!(normalize_type_name("nav_msgs/Odometry"), "nav_msgs/msg/Odometry");
+        assert!(matches!(normalize_type_name("nav_msgs/msg/Odometry"), std::borrow::Cow::Borrowed(_)));
+    }
+
+    #[test]
+    fn a_msg_stays_small() {
+        // Moved by value through the executor's queues: the large messages are boxed.
+        assert!(std::mem::size_of::<Msg>() <= 128, "Msg is {} bytes", std::mem::size_of::<Msg>());
     }
 }

@@ -45,11 +45,17 @@ pub fn encode<T: RosMessage>(msg: &T) -> Result<Vec<u8>, CdrError> {
 /// Encodes into `out` (cleared first), reusing its allocation.
 pub fn encode_into<T: RosMessage>(msg: &T, out: &mut Vec<u8>) -> Result<(), CdrError> {
     out.clear();
+    append_to(msg, out)
+}
+
+/// Appends the message's CDR buffer (header included) to `out`, whatever `out` already holds:
+/// the bytes appended are those [`encode`] returns.
+pub fn append_to<T: RosMessage>(msg: &T, out: &mut Vec<u8>) -> Result<(), CdrError> {
     out.extend_from_slice(&HEADER_LE);
-    let body = cdr_encoding::to_vec::<T, LittleEndian>(msg)
-        .map_err(|e| CdrError::Encode { type_name: T::TYPE_NAME, reason: e.to_string() })?;
-    out.extend_from_slice(&body);
-    Ok(())
+    // The serializer counts alignment from its own first byte, i.e. after the header, so
+    // writing straight into `out` gives the same bytes as encoding apart and appending.
+    cdr_encoding::to_writer::<T, LittleEndian, _>(&mut *out, msg)
+        .map_err(|e| CdrError::Encode { type_name: T::TYPE_NAME, reason: e.to_string() })
 }
 
 /// Decodes a CDR buffer (header included) of either byte order.
@@ -102,6 +108,13 @@ mod tests {
         assert_eq!(&b[26..28], &[0, 0]);
         assert_eq!(&b[28..36], &0.5f64.to_le_bytes());
         assert_eq!(decode::<TwistStamped>(&b).expect("decodes"), m);
+        // Appended after bytes of any length, the buffer is the same (alignment counts from
+        // the byte after the encapsulation header).
+        for lead in 0..9 {
+            let mut out = vec![0xaa; lead];
+            append_to(&m, &mut out).expect("appends");
+            assert_eq!(&out[lead..], &b[..], "after {lead} bytes");
+        }
     }
 
     #[test]

@@ -2,7 +2,10 @@
 //!
 //! Every delivery and timer tick is an event ordered by (time, sequence number): messages are
 //! delivered in timestamp order, and events with equal stamps in the order they were scheduled,
-//! so the same inputs always give the same outputs, bit for bit. A message a node publishes is
+//! so the same inputs always give the same outputs, bit for bit. Events stamped at the current
+//! time (publications, inputs injected at the time the executor has run to) wait in a FIFO, the
+//! others in a binary heap; the next event is the smaller (time, sequence) of the two heads, so
+//! the split changes nothing in the order and spares most events the heap. A message a node publishes is
 //! delivered at the time it was published (zero transport latency). Timers fire at
 //! `start + k * period` exactly. Every delivered message (inputs and publications) is handed to
 //! the caller's sink, which is how replay and the simulator record.
@@ -11,7 +14,7 @@ use crate::msg::{DiagnosticArray, DiagnosticStatus, Header};
 use crate::node::{NodeCore, Outbox};
 use crate::{Msg, Nanos};
 use std::cmp::{Ordering, Reverse};
-use std::collections::{BinaryHeap, HashMap};
+use std::collections::{BinaryHeap, HashMap, VecDeque};
 use thiserror::Error;
 
 /// Errors of the in-process executor.
@@ -138,7 +141,10 @@ pub struct Executor {
     slots: Vec<Slot>,
     topics: Vec<Topic>,
     by_name: HashMap<String, usize>,
+    /// Events stamped later than `now` when they were scheduled.
     queue: BinaryHeap<Reverse<Event>>,
+    /// Events stamped `now`, in sequence order (all with the same stamp).
+    ready: VecDeque<Event>,
     seq: u64,
     now: Nanos,
     started: bool,
@@ -165,6 +171,7 @@ impl Executor {
             topics: Vec::new(),
             by_name: HashMap::new(),
             queue: BinaryHeap::new(),
+            ready: VecDeque::new(),
             seq: 0,
             now: Nanos::MIN,
             started: false,
@@ -236,7 +243,38 @@ impl Executor {
 
     fn push(&mut self, stamp: Nanos, kind: Kind) {
         self.seq += 1;
-        self.queue.push(Reverse(Event { stamp, seq: self.seq, kind }));
+        let ev = Event { stamp, seq: self.seq, kind };
+        // `ready` only ever holds events at `now` (the clock does not move past it while it is
+        // not empty), so its sequence numbers increase from front to back.
+        if stamp == self.now && self.ready.front().is_none_or(|f| f.stamp == stamp) {
+            self.ready.push_back(ev);
+        } else {
+            self.queue.push(Reverse(ev));
+        }
+    }
+
+    /// The stamp of the next event, if any.
+    fn next_stamp(&self) -> Option<Nanos> {
+        match (self.ready.front(), self.queue.peek()) {
+            (Some(r), Some(Reverse(q))) => Some(r.stamp.min(q.stamp)),
+            (Some(r), None) => Some(r.stamp),
+            (None, Some(Reverse(q))) => Some(q.stamp),
+            (None, None) => None,
+        }
+    }
+
+    /// Takes the next event in (stamp, sequence) order.
+    fn pop(&mut self) -> Option<Event> {
+        let from_ready = match (self.ready.front(), self.queue.peek()) {
+            (Some(r), Some(Reverse(q))) => (r.stamp, r.seq) < (q.stamp, q.seq),
+            (Some(_), None) => true,
+            (None, _) => false,
+        };
+        if from_ready {
+            self.ready.pop_front()
+        } else {
+            self.queue.pop().map(|Reverse(e)| e)
+        }
     }
 
     fn schedule_timers(&mut self, node: usize, t0: Nanos) {
@@ -330,11 +368,11 @@ impl Executor {
     /// `sink`; the clock ends at `t`.
     pub fn run_until(&mut self, t: Nanos, sink: &mut dyn FnMut(&Record)) -> Result<(), ExecutorError> {
         self.start(t);
-        while let Some(Reverse(ev)) = self.queue.peek() {
-            if ev.stamp > t {
+        while let Some(stamp) = self.next_stamp() {
+            if stamp > t {
                 break;
             }
-            let Some(Reverse(ev)) = self.queue.pop() else { break };
+            let Some(ev) = self.pop() else { break };
             if ev.stamp != self.now {
                 self.instant_events = 0;
             }
@@ -392,8 +430,12 @@ impl Executor {
     }
 
     fn flush(&mut self, node: usize, now: Nanos) {
-        let items: Vec<(usize, Msg)> = self.outbox.drain().collect();
-        for (out, msg) in items {
+        if self.outbox.items.is_empty() {
+            return;
+        }
+        // Taken out and put back, so the outbox keeps its allocation.
+        let mut items = std::mem::take(&mut self.outbox.items);
+        for (out, msg) in items.drain(..) {
             match self.slots[node].outputs.get(out) {
                 Some(&t) if self.topics[t].type_name == msg.type_name() => {
                     self.push(now, Kind::Deliver { topic: t, msg, from: Some(node) });
@@ -401,6 +443,7 @@ impl Executor {
                 _ => self.stats.type_mismatches += 1,
             }
         }
+        self.outbox.items = items;
     }
 }
 

@@ -43,7 +43,7 @@ impl Port {
 /// Messages a core publishes during one call: (output index, message).
 #[derive(Debug, Default)]
 pub struct Outbox {
-    items: Vec<(usize, Msg)>,
+    pub(crate) items: Vec<(usize, Msg)>,
 }
 
 impl Outbox {
