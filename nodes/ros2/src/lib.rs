@@ -40,18 +40,18 @@ pub use runtime::NodeRuntime;
 pub use spec::NodeSpec;
 
 /// The executables the `sillage` ROS 2 package installs (in `lib/sillage/`), with what each
-/// runs. `sillage_world` (the simulated world as a ROS node) is planned: launch files may
-/// name it, and `sillage check` says it is not built yet.
+/// runs.
 pub const BINARIES: &[(&str, &str)] = &[
     ("sillage_event_encoder", "event_encoder"),
     ("sillage_bearing_decoder", "bearing_decoder"),
     ("sillage_plume_estimator", "plume_estimator"),
     ("sillage_arbiter", "arbiter"),
     ("sillage_stack", "event_encoder, bearing_decoder, plume_estimator, arbiter"),
+    ("sillage_world", "sim_world (the simulated world: chem, wind, odom, scan, /clock; cmd_vel in)"),
 ];
 
-/// Binaries that launch files may name before they exist.
-pub const PLANNED_BINARIES: &[&str] = &["sillage_world"];
+/// The executable of the simulated world node.
+pub const WORLD_BINARY: &str = "sillage_world";
 
 #[cfg(test)]
 mod tests {

@@ -31,6 +31,13 @@ pub enum RuntimeError {
         /// The problem.
         source: Unrepresentable,
     },
+    /// A node that publishes `/clock` was started with `use_sim_time: true`: it would wait
+    /// for the clock it is meant to drive.
+    #[error("{node}: publishes /clock, so it must run on wall time: set use_sim_time to false for this node (only the nodes it drives take true)")]
+    ClockLoop {
+        /// Fully qualified node name.
+        node: String,
+    },
     /// A received buffer could not be decoded as the topic's type.
     #[error("{node}: input '{topic}' ({type_name}): {source}")]
     Decode {
@@ -204,8 +211,7 @@ impl NodeRuntime {
     /// Integers are accepted for doubles; unknown names and invalid values are errors that
     /// name the key, with `source` saying where the values came from.
     pub fn start(spec: &NodeSpec, fqn: &str, flat: &[(String, ParamValue)], source: &str) -> Result<NodeRuntime, RuntimeError> {
-        let defaults = spec.defaults(fqn)?;
-        let template = to_flat(&defaults.params_yaml())
+        let template = to_flat(&spec.default_params)
             .map_err(|source| RuntimeError::Unrepresentable { node: fqn.to_string(), source })?;
         let mut given: Vec<(String, ParamValue)> = Vec::new();
         // ROS's own parameters stay with ROS; a value rcl could not type (an empty list in a
@@ -220,6 +226,10 @@ impl NodeRuntime {
         let nested = to_nested(given.iter().map(|(k, v)| (k.as_str(), v)));
         let core = (spec.build)(&nested, fqn, source)?;
         to_flat(&core.params_yaml()).map_err(|source| RuntimeError::Unrepresentable { node: fqn.to_string(), source })?;
+        let sim_time = flat.iter().any(|(k, v)| k == "use_sim_time" && *v == ParamValue::Bool(true));
+        if sim_time && core.outputs().iter().any(|p| p.topic == "/clock") {
+            return Err(RuntimeError::ClockLoop { node: fqn.to_string() });
+        }
         let shape = Shape::of(core.as_ref());
         let stats = RuntimeStats {
             received: vec![0; shape.inputs.len()],

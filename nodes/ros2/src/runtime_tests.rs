@@ -143,3 +143,37 @@ fn repeated_problems_are_logged_sparsely() {
     let logged: Vec<u64> = (0..=2000).filter(|&c| should_log(c)).collect();
     assert_eq!(logged, [1, 10, 100, 1000]);
 }
+
+fn world_flat(extra: &[(&str, ParamValue)]) -> Vec<(String, ParamValue)> {
+    let demo = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../../config/scenarios/demo.yaml");
+    let mut flat = vec![("scenario".to_string(), ParamValue::String(demo.display().to_string()))];
+    flat.extend(extra.iter().map(|(k, v)| (k.to_string(), v.clone())));
+    flat
+}
+
+#[test]
+fn the_world_node_runs_through_the_runtime_on_wall_time_only() {
+    let spec = crate::NodeSpec::world();
+    let mut rt = NodeRuntime::start(&spec, "/world", &world_flat(&[("seed", ParamValue::Integer(3))]), "-p").expect("starts");
+    assert_eq!(rt.param("seed"), Some(ParamValue::Integer(3)));
+    let outputs: Vec<String> = rt.outputs().iter().map(|p| p.topic.clone()).collect();
+    let clock = outputs.iter().position(|t| t == "/clock").expect("publishes /clock");
+    let chem = outputs.iter().position(|t| t == "chem").expect("publishes chem");
+    let mut sent: Vec<(usize, Vec<u8>)> = Vec::new();
+    let period = rt.timers()[0];
+    for k in 0..=20 {
+        rt.on_timer(1_000_000_000 + k * period, 0, &mut |o, b| sent.push((o, b.to_vec()))).expect("tick");
+    }
+    let last_clock = sent.iter().rev().find(|(o, _)| *o == clock).expect("a clock");
+    let Msg::Clock(c) = Msg::decode(sillage_core::msg::Clock::TYPE_NAME, &last_clock.1).expect("decodes") else { panic!("type") };
+    assert_eq!(c.clock.to_nanos(), 1_000_000_000 + 20 * period, "the clock is the host's time");
+    assert!(sent.iter().any(|(o, _)| *o == chem), "chem samples within 0.2 s");
+    // A start-up-only parameter cannot change at run time; the old value stays.
+    assert!(rt.set_param("seed", ParamValue::Integer(4)).is_err());
+    assert_eq!(rt.param("seed"), Some(ParamValue::Integer(3)));
+    // The source of /clock must not wait for /clock.
+    let e = NodeRuntime::start(&spec, "/world", &world_flat(&[("use_sim_time", ParamValue::Bool(true))]), "-p").expect_err("loop");
+    assert!(matches!(e, RuntimeError::ClockLoop { .. }), "{e}");
+    let e = NodeRuntime::start(&spec, "/world", &[], "p.yaml").expect_err("no scenario");
+    assert!(e.to_string().contains("scenario") && e.to_string().contains("p.yaml"), "{e}");
+}

@@ -28,6 +28,8 @@ pub struct NodeSpec {
     pub name: String,
     /// The builder.
     pub build: Arc<BuildFn>,
+    /// The default parameter tree (nested), which gives every parameter its ROS type.
+    pub default_params: Value,
 }
 
 impl std::fmt::Debug for NodeSpec {
@@ -48,8 +50,8 @@ pub fn section_text(fqn: &str, params: &Value) -> String {
 impl NodeSpec {
     /// A spec from a name and a builder (the hook for cores outside the stack registry, e.g.
     /// the simulated world node).
-    pub fn new(name: &str, build: Arc<BuildFn>) -> NodeSpec {
-        NodeSpec { name: name.to_string(), build }
+    pub fn new(name: &str, build: Arc<BuildFn>, default_params: Value) -> NodeSpec {
+        NodeSpec { name: name.to_string(), build, default_params }
     }
 
     /// The spec of a stack node: built through [`NodeKind::build_from_str`], so ROS and the
@@ -58,10 +60,21 @@ impl NodeSpec {
         let build = move |params: &Value, fqn: &str, source: &str| {
             kind.build_from_str(Some(&section_text(fqn, params)), source, fqn)
         };
-        NodeSpec::new(kind.name(), Arc::new(build))
+        NodeSpec::new(kind.name(), Arc::new(build), kind.default_params())
     }
 
-    /// The core with default parameters.
+    /// The simulated world (`sillage_sim::WorldNode`): its `scenario` parameter names the
+    /// scenario file, read at start-up; it has no defaults that build (a scenario is needed).
+    pub fn world() -> NodeSpec {
+        let build = |params: &Value, fqn: &str, source: &str| {
+            sillage_sim::build_world_node(params, fqn, source).map(|n| Box::new(n) as Box<dyn NodeCore>)
+        };
+        let defaults = sillage_core::params::to_value(&sillage_sim::WorldParams::default());
+        NodeSpec::new(sillage_sim::NODE_NAME, Arc::new(build), defaults)
+    }
+
+    /// The core with default parameters (fails for a core that needs a parameter, like the
+    /// world's `scenario`).
     pub fn defaults(&self, fqn: &str) -> Result<Box<dyn NodeCore>, ParamFileError> {
         (self.build)(&Value::Mapping(Mapping::new()), fqn, "(defaults)")
     }
@@ -82,6 +95,10 @@ mod tests {
             let m = e.to_string();
             assert!(m.contains("--ros-args") && m.contains("no_such_parameter") && m.contains("/r1/x"), "{m}");
         }
+        let world = NodeSpec::world();
+        let e = world.defaults("/world").err().expect("a scenario is required");
+        assert!(e.to_string().contains("scenario"), "{e}");
+        assert!(world.default_params.get("rate").is_some() && world.default_params.get("scenario").is_some());
         assert!(is_reserved("use_sim_time") && is_reserved("qos_overrides./chem.subscription.depth") && !is_reserved("rate"));
     }
 }

@@ -103,5 +103,6 @@ pub fn spec() -> NodeSpec {
             let p: P = params::load_str(&section_text(fqn, v), source, fqn)?;
             Ok(Box::new(Scaler { p, ticks: 0 }) as Box<dyn NodeCore>)
         }),
+        params::to_value(&P::default()),
     )
 }

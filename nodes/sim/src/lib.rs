@@ -15,6 +15,7 @@
 pub mod convert;
 pub mod episode;
 pub mod error;
+pub mod host;
 pub mod metrics;
 pub mod params;
 pub mod setup;
@@ -23,6 +24,7 @@ pub mod world_node;
 
 pub use episode::{EpisodeResult, EpisodeSpec, Outcome, RunOptions, Sim, Timeline};
 pub use error::SimError;
+pub use host::build_world_node;
 pub use params::WorldParams;
 pub use setup::StackSetup;
 pub use summary::Summary;

@@ -38,6 +38,10 @@ use sillage_world::{Scenario, Twist2, World};
 /// Default ROS node name.
 pub const NODE_NAME: &str = "sim_world";
 
+/// Every topic the world node may declare (`scan` only with a laser in the scenario), for
+/// checks that have no scenario at hand (launch-file remaps).
+pub const TOPICS: &[&str] = &["cmd_vel", "chem", "wind", "odom", "/clock", "scan"];
+
 /// Input index of `cmd_vel`.
 pub const IN_CMD_VEL: usize = 0;
 /// Output index of `chem`.

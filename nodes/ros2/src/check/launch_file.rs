@@ -4,9 +4,10 @@
 //! - Every `$(var NAME)` names an `<arg>` or `<let>` of the file; every substitution is one
 //!   the XML front end knows; declared arguments nobody uses are warnings.
 //! - `<node>` has `pkg` and `exec` (not ROS 1's `type`; `namespace`, not `ns`); for
-//!   `pkg="sillage"` the executable is one the package installs ([`crate::BINARIES`]; the
-//!   planned `sillage_world` is a warning); `sillage_stack` gets no `name` (it would rename
-//!   all four nodes); every `<remap from>` names a topic of the node (warning otherwise).
+//!   `pkg="sillage"` the executable is one the package installs ([`crate::BINARIES`]); an
+//!   inline `<param name>` is one of its parameters or ROS's own; `sillage_stack` gets no
+//!   `name` (it would rename all four nodes); every `<remap from>` names a topic of the node
+//!   (warning otherwise).
 //! - Every file referenced (`<param from>`, `<include file>`) exists, where its path can be
 //!   resolved offline: literal paths, `$(find-pkg-share sillage)` (the folder above the launch
 //!   file's folder, in the source tree and in `share/sillage/` alike) and `$(var x)` with a
@@ -15,7 +16,7 @@
 
 use super::Problem;
 use crate::spec::NodeSpec;
-use crate::{BINARIES, PLANNED_BINARIES};
+use crate::{BINARIES, WORLD_BINARY};
 use roxmltree::{Document, Node};
 use sillage_stack::NodeKind;
 use std::collections::{BTreeMap, BTreeSet};
@@ -128,22 +129,36 @@ fn declared_args(doc: &Document) -> Args {
     args
 }
 
-/// The declared topic names of the cores a sillage executable hosts.
-fn topics_of(exec: &str) -> Option<BTreeSet<String>> {
-    let kinds: Vec<NodeKind> = if exec == "sillage_stack" {
-        NodeKind::ALL.to_vec()
+/// What the cores a sillage executable hosts declare: topic names and parameter keys (flat).
+struct Hosted {
+    topics: BTreeSet<String>,
+    params: BTreeSet<String>,
+}
+
+/// The declared topics and parameters of the cores a sillage executable hosts.
+fn hosted(exec: &str) -> Option<Hosted> {
+    let specs: Vec<NodeSpec> = if exec == "sillage_stack" {
+        NodeKind::ALL.into_iter().map(NodeSpec::of_kind).collect()
+    } else if exec == WORLD_BINARY {
+        vec![NodeSpec::world()]
     } else {
         let node = BINARIES.iter().find(|(b, _)| *b == exec)?.1;
-        vec![NodeKind::from_name(node).ok()?]
+        vec![NodeSpec::of_kind(NodeKind::from_name(node).ok()?)]
     };
     let mut topics = BTreeSet::new();
-    for kind in kinds {
-        let core = NodeSpec::of_kind(kind).defaults(&format!("/{}", kind.name())).ok()?;
+    let mut params = BTreeSet::new();
+    for spec in specs {
+        params.extend(sillage_core::params::flatten(&spec.default_params).into_iter().map(|(k, _)| k));
+        if exec == WORLD_BINARY {
+            topics.extend(sillage_sim::world_node::TOPICS.iter().map(|t| t.to_string()));
+            continue;
+        }
+        let core = spec.defaults(&format!("/{}", spec.name)).ok()?;
         for p in core.inputs().into_iter().chain(core.outputs()) {
             topics.insert(p.topic);
         }
     }
-    Some(topics)
+    Some(Hosted { topics, params })
 }
 
 struct Ctx<'a> {
@@ -197,10 +212,6 @@ impl Ctx<'_> {
         let pkg = resolve(pkg, &self.args, &self.share, 0);
         let exec = resolve(exec, &self.args, &self.share, 0);
         let (Some("sillage"), Some(exec)) = (pkg.as_deref(), exec) else { return };
-        if PLANNED_BINARIES.contains(&exec.as_str()) {
-            self.warn(n, format!("'{exec}' is planned but not built yet: this launch file cannot start until it exists"));
-            return;
-        }
         if !BINARIES.iter().any(|(b, _)| *b == exec) {
             let known: Vec<&str> = BINARIES.iter().map(|(b, _)| *b).collect();
             self.err(n, format!("package sillage has no executable '{exec}' (it installs {})", known.join(", ")));
@@ -209,7 +220,15 @@ impl Ctx<'_> {
         if exec == "sillage_stack" && n.attribute("name").is_some() {
             self.err(n, "sillage_stack hosts four nodes: name= would give them all one name (the process refuses it); leave it out");
         }
-        let Some(topics) = topics_of(&exec) else { return };
+        let Some(Hosted { topics, params }) = hosted(&exec) else { return };
+        for p in n.children().filter(|c| c.tag_name().name() == "param") {
+            let Some(name) = p.attribute("name") else { continue };
+            if !name.contains("$(") && !crate::spec::is_reserved(name) && !params.contains(name) {
+                let near: Vec<&str> = params.iter().map(String::as_str).filter(|k| k.rsplit('.').next() == name.rsplit('.').next()).collect();
+                let hint = if near.is_empty() { String::new() } else { format!(" (did you mean {}?)", near.join(", ")) };
+                self.err(p, format!("{exec} has no parameter '{name}'{hint}"));
+            }
+        }
         for r in n.children().filter(|c| c.tag_name().name() == "remap") {
             let Some(from) = r.attribute("from") else { continue };
             let bare = from.trim_start_matches('/');
@@ -376,7 +395,7 @@ mod tests {
   <node pkg="sillage" exec="sillage_stack" name="stack" namespace="$(var robot)"/>
   <node pkg="sillage" exec="sillage_event_encoder"><remap from="chm" to="x"/><param from="$(find-pkg-share sillage)/config/none.yaml"/></node>
   <include file="$(find-pkg-share sillage)/launch/inner.launch.xml"><arg name="nss" value="a"/></include>
-  <node pkg="sillage" exec="sillage_world"/>
+  <node pkg="sillage" exec="sillage_world"><param name="scenario" value="a.yaml"/><param name="seeds" value="1"/><remap from="odom" to="truth"/></node>
   <param name="x" value="$(frobnicate a)"/>
 </launch>"#,
         );
@@ -390,7 +409,8 @@ mod tests {
         assert!(has(":6: error: parameter file"), "{p:#?}");
         assert!(has(":7: error:") && has("declares no argument 'nss'"), "{p:#?}");
         assert!(has("requires argument 'ns'"), "{p:#?}");
-        assert!(has(":8: warning: 'sillage_world' is planned"), "{p:#?}");
+        assert!(has(":8: error: sillage_world has no parameter 'seeds'"), "{p:#?}");
+        assert!(!has("parameter 'scenario'") && !has("remap from 'odom'"), "{p:#?}");
         assert!(has(":9: error: unknown substitution '$(frobnicate"), "{p:#?}");
         assert!(has(":2: warning: argument 'unused' is declared but never used"), "{p:#?}");
         assert!(check("<launch").iter().all(|m| m.contains("invalid XML")));
