@@ -4,10 +4,13 @@
 //! and a `metadata.yaml` beside it (version 9). The same metadata goes into the MCAP file as
 //! the `rosbag2` metadata record, key `serialized_metadata`, as rosbag2 does.
 //!
-//! Output is deterministic: the same messages give the same bytes. A writer dropped without
-//! [`BagWriter::finish`] still closes its file properly (best effort, errors ignored).
+//! Output is deterministic: the same messages give the same bytes, whatever the compression
+//! runs on ([`WriterOptions::background`] moves MCAP framing and compression to a thread of its
+//! own; the caller only encodes CDR). A writer dropped without [`BagWriter::finish`] still
+//! closes its file properly (best effort, errors ignored).
 
 use crate::error::BagError;
+use crate::mcap_out::Backend;
 use crate::metadata::{Duration, FileInfo, Metadata, QosProfile, StartingTime, TopicMetadata, TopicWithCount, WRITE_VERSION};
 use sillage_core::ros_type::full_definition;
 use sillage_core::{Msg, Nanos};
@@ -19,19 +22,32 @@ use std::path::{Path, PathBuf};
 /// How to write.
 #[derive(Debug, Clone)]
 pub struct WriterOptions {
-    /// Chunk compression (default zstd, as rosbag2's default MCAP preset).
+    /// Chunk compression (default zstd).
     pub compression: Option<mcap::Compression>,
+    /// Compression level (0: the codec's default).
+    pub compression_level: u32,
     /// Target uncompressed chunk size [bytes].
     pub chunk_size: u64,
     /// Replace an existing output folder's files instead of refusing.
     pub overwrite: bool,
     /// `ros_distro` recorded in the metadata.
     pub ros_distro: String,
+    /// Frame, compress and write on a thread of its own: [`BagWriter::write`] then only encodes
+    /// CDR and queues the bytes, and a write error shows at a later write or at
+    /// [`BagWriter::finish`]. The file's bytes are the same either way.
+    pub background: bool,
 }
 
 impl Default for WriterOptions {
     fn default() -> Self {
-        WriterOptions { compression: Some(mcap::Compression::Zstd), chunk_size: 768 * 1024, overwrite: false, ros_distro: "sillage".into() }
+        WriterOptions {
+            compression: Some(mcap::Compression::Zstd),
+            compression_level: 0,
+            chunk_size: 768 * 1024,
+            overwrite: false,
+            ros_distro: "sillage".into(),
+            background: false,
+        }
     }
 }
 
@@ -42,7 +58,8 @@ pub struct TopicId(usize);
 struct TopicOut {
     name: String,
     type_name: &'static str,
-    channel: u16,
+    /// Index of the channel in registration order.
+    channel: usize,
     qos: Vec<QosProfile>,
     count: u64,
     sequence: u32,
@@ -63,12 +80,12 @@ pub struct WriteSummary {
 pub struct BagWriter {
     dir: PathBuf,
     file: PathBuf,
-    writer: Option<mcap::Writer<BufWriter<File>>>,
+    out: Backend,
     opts: WriterOptions,
-    schemas: HashMap<&'static str, u16>,
+    /// Schema index by type, in registration order.
+    schemas: HashMap<&'static str, usize>,
     topics: Vec<TopicOut>,
     by_name: HashMap<String, usize>,
-    buf: Vec<u8>,
     first: Nanos,
     last: Nanos,
 }
@@ -90,19 +107,20 @@ impl BagWriter {
             .profile("ros2")
             .library(format!("sillage-bag {}", env!("CARGO_PKG_VERSION")))
             .compression(opts.compression)
+            .compression_level(opts.compression_level)
             .chunk_size(Some(opts.chunk_size))
             .compression_threads(0)
             .create(BufWriter::with_capacity(1 << 16, f))
             .map_err(|e| BagError::Write { path: file.clone(), reason: e.to_string() })?;
+        let out = Backend::new(&file, w, opts.background);
         Ok(BagWriter {
             dir,
             file,
-            writer: Some(w),
+            out,
             opts,
             schemas: HashMap::new(),
             topics: Vec::new(),
             by_name: HashMap::new(),
-            buf: Vec::with_capacity(1024),
             first: Nanos::MAX,
             last: Nanos::MIN,
         })
@@ -130,18 +148,23 @@ impl BagWriter {
         let canonical: &'static str = canonical;
         let text = full_definition(canonical)
             .ok_or_else(|| BagError::Encode { path: self.file.clone(), topic: name.into(), reason: format!("no definition of '{canonical}'") })?;
-        let w = self.writer.as_mut().ok_or_else(|| BagError::Write { path: self.file.clone(), reason: "writer already finished".into() })?;
+        if !self.out.is_open() {
+            return Err(self.werr("writer already finished"));
+        }
         let schema = match self.schemas.get(canonical) {
             Some(&s) => s,
             None => {
-                let s = w.add_schema(canonical, "ros2msg", text.as_bytes()).map_err(|e| BagError::Write { path: self.file.clone(), reason: e.to_string() })?;
+                let s = self.schemas.len();
+                self.out.batch().schema(canonical, text);
                 self.schemas.insert(canonical, s);
                 s
             }
         };
         let mut meta = BTreeMap::new();
         meta.insert("offered_qos_profiles".to_string(), QosProfile::list_to_yaml(qos));
-        let channel = w.add_channel(schema, name, "cdr", &meta).map_err(|e| BagError::Write { path: self.file.clone(), reason: e.to_string() })?;
+        let channel = self.topics.len();
+        self.out.batch().channel(schema, name, meta);
+        self.out.commit()?;
         self.topics.push(TopicOut { name: name.into(), type_name: canonical, channel, qos: qos.to_vec(), count: 0, sequence: 0 });
         self.by_name.insert(name.into(), self.topics.len() - 1);
         Ok(TopicId(self.topics.len() - 1))
@@ -158,28 +181,41 @@ impl BagWriter {
         if msg.type_name() != t.type_name {
             return Err(BagError::TopicType { path: self.file.clone(), topic: t.name.clone(), existing: t.type_name.into(), got: msg.type_name().into() });
         }
-        let mut buf = std::mem::take(&mut self.buf);
-        let r = msg
-            .encode_into(&mut buf)
-            .map_err(|e| BagError::Encode { path: self.file.clone(), topic: t.name.clone(), reason: e.to_string() })
-            .and_then(|()| self.write_raw(topic, log_time, &buf));
-        self.buf = buf;
-        r
+        self.put(topic, log_time, |data| {
+            msg.append_to(data).map_err(|e| e.to_string())
+        })
     }
 
     /// Writes serialized CDR bytes at `log_time` [ns].
     pub fn write_raw(&mut self, topic: TopicId, log_time: Nanos, data: &[u8]) -> Result<(), BagError> {
+        self.put(topic, log_time, |buf| {
+            buf.extend_from_slice(data);
+            Ok(())
+        })
+    }
+
+    /// Appends one message's bytes (by `fill`, an encoding error is its reason) and queues it.
+    fn put(&mut self, topic: TopicId, log_time: Nanos, fill: impl FnOnce(&mut Vec<u8>) -> Result<(), String>) -> Result<(), BagError> {
         let file = &self.file;
         let t = self.topics.get_mut(topic.0).ok_or_else(|| BagError::Write { path: file.clone(), reason: "unknown topic id".into() })?;
-        let w = self.writer.as_mut().ok_or_else(|| BagError::Write { path: file.clone(), reason: "writer already finished".into() })?;
+        if !self.out.is_open() {
+            return Err(BagError::Write { path: file.clone(), reason: "writer already finished".into() });
+        }
         let time = u64::try_from(log_time).map_err(|_| BagError::Write { path: file.clone(), reason: format!("negative log time {log_time} ns") })?;
-        let header = mcap::records::MessageHeader { channel_id: t.channel, sequence: t.sequence, log_time: time, publish_time: time };
-        w.write_to_known_channel(&header, data).map_err(|e| BagError::Write { path: file.clone(), reason: e.to_string() })?;
+        let batch = self.out.batch();
+        let data = batch.data();
+        let before = data.len();
+        if let Err(reason) = fill(data) {
+            data.truncate(before);
+            return Err(BagError::Encode { path: file.clone(), topic: t.name.clone(), reason });
+        }
+        let len = data.len() - before;
+        batch.message(t.channel, t.sequence, time, len);
         t.sequence = t.sequence.wrapping_add(1);
         t.count += 1;
         self.first = self.first.min(log_time);
         self.last = self.last.max(log_time);
-        Ok(())
+        self.out.commit()
     }
 
     /// Registers the topic on first use (with `qos`) and writes the message.
@@ -236,14 +272,13 @@ impl BagWriter {
 
     fn finish_inner(&mut self) -> Result<WriteSummary, BagError> {
         let metadata = self.metadata();
-        let Some(mut w) = self.writer.take() else { return Err(self.werr("writer already finished")) };
+        if !self.out.is_open() {
+            return Err(self.werr("writer already finished"));
+        }
         let inner = metadata.to_inner_yaml().map_err(|e| self.werr(e))?;
         let mut m = BTreeMap::new();
         m.insert("serialized_metadata".to_string(), inner);
-        w.write_metadata(&mcap::records::Metadata { name: "rosbag2".into(), metadata: m }).map_err(|e| self.werr(e))?;
-        w.finish().map_err(|e| self.werr(e))?;
-        let mut out = w.into_inner();
-        std::io::Write::flush(&mut out).map_err(|e| BagError::io(&self.file, e))?;
+        self.out.finish(mcap::records::Metadata { name: "rosbag2".into(), metadata: m })?;
         let text = metadata.to_yaml().map_err(|e| self.werr(e))?;
         let meta_path = self.dir.join("metadata.yaml");
         std::fs::write(&meta_path, text).map_err(|e| BagError::io(&meta_path, e))?;
@@ -258,8 +293,62 @@ impl BagWriter {
 
 impl Drop for BagWriter {
     fn drop(&mut self) {
-        if self.writer.is_some() {
+        if self.out.is_open() {
             let _ = self.finish_inner();
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use sillage_core::msg::*;
+    use sillage_core::Qos;
+
+    fn write_bag(dir: &Path, background: bool, compression: Option<mcap::Compression>) -> (Vec<u8>, String) {
+        let opts = WriterOptions { overwrite: true, background, compression, chunk_size: 64 * 1024, ..Default::default() };
+        let mut w = BagWriter::create(dir, opts).expect("creates");
+        let q = [QosProfile::from(Qos::SensorData)];
+        for k in 0..20_000i64 {
+            let t = 1_000_000_000 + k * 10_000_000;
+            let chem = ChemSample { header: Header::new(t, "chem"), channels: vec!["l".into(), "r".into()], values: vec![k as f64, 0.5], quantity: 0 };
+            w.write_on("/chem", t, &chem.into(), &q).expect("writes");
+            if k % 5 == 0 {
+                // A topic registered midway, and a boxed variant.
+                let o = Odometry { header: Header::new(t, "odom"), child_frame_id: "base_link".into(), ..Default::default() };
+                w.write_on("/odom", t + 1, &o.into(), &q).expect("writes");
+            }
+        }
+        let s = w.finish().expect("finishes");
+        assert_eq!(s.metadata.message_count, 24_000);
+        (std::fs::read(&s.file).expect("mcap"), std::fs::read_to_string(s.dir.join("metadata.yaml")).expect("yaml"))
+    }
+
+    #[test]
+    fn writing_on_a_thread_gives_the_same_bytes() {
+        let root = std::env::temp_dir().join(format!("sillage-writer-thread-{}", std::process::id()));
+        for compression in [None, Some(mcap::Compression::Zstd), Some(mcap::Compression::Lz4)] {
+            // Same folder name: the metadata names the file.
+            let inline = write_bag(&root.join("inline").join("bag"), false, compression);
+            let threaded = write_bag(&root.join("threaded").join("bag"), true, compression);
+            assert!(inline.0.len() > 64 * 1024, "several chunks");
+            assert!(inline.0 == threaded.0, "MCAP bytes differ ({compression:?})");
+            assert_eq!(inline.1, threaded.1);
+        }
+        let _ = std::fs::remove_dir_all(&root);
+    }
+
+    #[test]
+    fn a_threaded_writer_dropped_unfinished_still_closes_the_file() {
+        let dir = std::env::temp_dir().join(format!("sillage-writer-drop-{}", std::process::id()));
+        {
+            let mut w = BagWriter::create(&dir, WriterOptions { overwrite: true, background: true, ..Default::default() }).expect("creates");
+            let m: Msg = Bool { data: true }.into();
+            w.write_on("/b", 5, &m, &[]).expect("writes");
+        }
+        let bag = crate::Bag::open(&dir).expect("opens");
+        let n = bag.messages(&crate::ReadOptions::default()).expect("reads").count();
+        assert_eq!(n, 1);
+        let _ = std::fs::remove_dir_all(&dir);
     }
 }
