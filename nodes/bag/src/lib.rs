@@ -36,3 +36,5 @@ pub use metadata::{Metadata, QosProfile};
 pub use reader::{Bag, BagFile, BagMessage, Messages, RawMessage, ReadOptions, ReadReport, SkipReason, TopicReport};
 pub use source::{Source, Storage, TopicDecl};
 pub use writer::{BagWriter, TopicId, WriteSummary, WriterOptions};
+/// Chunk compression of written bags (the mcap crate's).
+pub use mcap::Compression;

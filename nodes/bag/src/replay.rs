@@ -10,9 +10,10 @@
 
 use crate::error::BagError;
 use crate::reader::Messages;
-use sillage_core::executor::{Executor, Record};
+use sillage_core::executor::{Executor, Record, TopicId};
 use sillage_core::Nanos;
 use std::collections::{BTreeMap, HashMap, HashSet};
+use std::sync::Arc;
 
 /// Which bag topics feed the graph.
 #[derive(Debug, Clone, Default)]
@@ -67,6 +68,8 @@ pub fn replay(
         }
     };
     let mut last = None;
+    // What to do with each bag topic, decided once: the reader hands out one `Arc` per topic.
+    let mut seen: Vec<(Arc<str>, &'static str, Result<TopicId, NotInjected>)> = Vec::new();
     for item in messages.by_ref() {
         let m = match item {
             Ok(m) => m,
@@ -75,17 +78,19 @@ pub fn replay(
                 break;
             }
         };
-        let why = match inputs.inject.get(m.topic.as_ref()) {
-            Some(&t) if t == m.type_name => None,
-            Some(&t) => Some(NotInjected::WrongType(t)),
-            None if inputs.outputs.contains(m.topic.as_ref()) => Some(NotInjected::Recomputed),
-            None => Some(NotInjected::Unused),
+        let known = seen.iter().position(|(t, ty, _)| Arc::ptr_eq(t, &m.topic) && std::ptr::eq(*ty, m.type_name));
+        let i = known.unwrap_or_else(|| {
+            seen.push((m.topic.clone(), m.type_name, decide(ex, inputs, &m.topic, m.type_name)));
+            seen.len() - 1
+        });
+        let id = match &seen[i].2 {
+            Ok(id) => *id,
+            Err(why) => {
+                let e = out.not_injected.entry(m.topic.to_string()).or_insert_with(|| (m.type_name.to_string(), 0, Some(why.clone())));
+                e.1 += 1;
+                continue;
+            }
         };
-        if why.is_some() {
-            let e = out.not_injected.entry(m.topic.to_string()).or_insert_with(|| (m.type_name.to_string(), 0, why));
-            e.1 += 1;
-            continue;
-        }
         let t = m.log_time;
         if let Err(e) = ex.run_until(t, &mut sink) {
             out.error = Some(BagError::Executor { log_time: t, reason: e.to_string() });
@@ -95,7 +100,7 @@ pub fn replay(
             out.error = Some(e);
             break;
         }
-        if let Err(e) = ex.inject(t, &m.topic, m.msg) {
+        if let Err(e) = ex.inject_on(t, id, m.msg) {
             out.error = Some(BagError::Executor { log_time: t, reason: e.to_string() });
             break;
         }
@@ -118,4 +123,14 @@ pub fn replay(
         out.error.get_or_insert(e);
     }
     out
+}
+
+/// Whether a bag topic of a type feeds the graph (and on which executor topic), or why not.
+fn decide(ex: &Executor, inputs: &Inputs, topic: &str, type_name: &'static str) -> Result<TopicId, NotInjected> {
+    match inputs.inject.get(topic) {
+        Some(&t) if t == type_name => ex.topic_id(topic).ok_or(NotInjected::Unused),
+        Some(&t) => Err(NotInjected::WrongType(t)),
+        None if inputs.outputs.contains(topic) => Err(NotInjected::Recomputed),
+        None => Err(NotInjected::Unused),
+    }
 }

@@ -4,8 +4,10 @@
 //! Replay reads the bags (MCAP or sqlite3, merged by log time), builds the stack from the
 //! parameter file, injects each message on a graph input at its log time, and writes to the
 //! output folder: `bag/` (every delivered topic, inputs and node outputs, in MCAP with
-//! metadata.yaml), `summary.json` and `summary.txt`, and `plots/`. A replay stopped by a bad
-//! record still closes the output bag and writes the summary, which says why it stopped.
+//! metadata.yaml; left out with `--no-bag`), `summary.json` and `summary.txt`, and `plots/`.
+//! The output bag is framed, compressed and written on a thread of its own while the graph
+//! runs. A replay stopped by a bad record still closes the output bag and writes the summary,
+//! which says why it stopped.
 
 #![allow(clippy::result_large_err)] // sillage_bag's errors carry file, topic and offset
 
@@ -51,12 +53,39 @@ pub struct Args {
     /// Do not draw plots.
     #[arg(long)]
     pub no_plots: bool,
+    /// Do not write the output bag (summary and plots only).
+    #[arg(long)]
+    pub no_bag: bool,
+    /// Chunk compression of the output bag.
+    #[arg(long, value_enum, default_value = "zstd")]
+    pub bag_compression: BagCompression,
     /// Stop at the first undecodable message, schema mismatch or backward log time.
     #[arg(long)]
     pub strict: bool,
     /// Do not show a progress bar.
     #[arg(long)]
     pub quiet: bool,
+}
+
+/// Chunk compression of the output bag.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum BagCompression {
+    /// Uncompressed chunks (largest file, least CPU).
+    None,
+    /// LZ4 frames.
+    Lz4,
+    /// Zstandard (the smallest file).
+    Zstd,
+}
+
+impl BagCompression {
+    fn mcap(self) -> Option<sillage_bag::Compression> {
+        match self {
+            BagCompression::None => None,
+            BagCompression::Lz4 => Some(sillage_bag::Compression::Lz4),
+            BagCompression::Zstd => Some(sillage_bag::Compression::Zstd),
+        }
+    }
 }
 
 /// `sillage bag ...` subcommands.
@@ -98,7 +127,12 @@ pub fn run(args: Args) -> Result<()> {
 
     let out_dir = args.out.clone().unwrap_or_else(|| PathBuf::from("out").join(format!("replay-{}", bag.name)));
     std::fs::create_dir_all(&out_dir).with_context(|| format!("creating {}", out_dir.display()))?;
-    let mut writer = BagWriter::create(out_dir.join("bag"), WriterOptions { overwrite: true, ..Default::default() })?;
+    let mut writer = if args.no_bag {
+        None
+    } else {
+        let opts = WriterOptions { overwrite: true, background: true, compression: args.bag_compression.mcap(), ..Default::default() };
+        Some(BagWriter::create(out_dir.join("bag"), opts)?)
+    };
 
     let read = ReadOptions { start, end, topics: None, strict: args.strict };
     let mut messages = bag.messages(&read)?;
@@ -108,7 +142,10 @@ pub fn run(args: Args) -> Result<()> {
     let mut record = |r: &Record| -> Result<(), sillage_bag::BagError> {
         collector.record(r);
         plot.record(r);
-        writer.write_on(r.topic, r.stamp, r.msg, &[QosProfile::from(graph.qos(r.topic))])
+        match writer.as_mut() {
+            Some(w) => w.write_on(r.topic, r.stamp, r.msg, &[QosProfile::from(graph.qos(r.topic))]),
+            None => Ok(()),
+        }
     };
     let mut progress = |t: sillage_core::Nanos| {
         if let Some(b) = &bar {
@@ -125,14 +162,15 @@ pub fn run(args: Args) -> Result<()> {
         eprintln!("warning: no bag message fed the graph; it reads {} (use --remap or --namespace)", want.join(", "));
     }
     collector.finish();
-    let written = writer.finish();
+    let written = writer.map(BagWriter::finish);
     let wall = started.elapsed().as_secs_f64();
 
     let mut outputs = Vec::new();
     let mut interrupted = outcome.error.as_ref().map(ToString::to_string);
     match &written {
-        Ok(s) => outputs.push(format!("{} ({} messages)", s.dir.display(), s.metadata.message_count)),
-        Err(e) => interrupted = Some(interrupted.map_or_else(|| e.to_string(), |i| format!("{i}; then closing the output bag: {e}"))),
+        Some(Ok(s)) => outputs.push(format!("{} ({} messages)", s.dir.display(), s.metadata.message_count)),
+        Some(Err(e)) => interrupted = Some(interrupted.map_or_else(|| e.to_string(), |i| format!("{i}; then closing the output bag: {e}"))),
+        None => {}
     }
     if !args.no_plots {
         match plot.write(&out_dir.join("plots"), args.plot_format) {

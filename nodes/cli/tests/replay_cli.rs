@@ -65,6 +65,31 @@ fn replay_writes_bag_summary_and_plots_deterministically() {
 }
 
 #[test]
+fn bag_compressions_hold_the_same_messages_and_no_bag_writes_none() {
+    let demo = demo();
+    let demo = demo.to_str().expect("utf-8");
+    let mut bags = Vec::new();
+    for c in ["zstd", "lz4", "none"] {
+        let out = tmp(&format!("compression-{c}"));
+        let o = sillage(&["replay", demo, "--out", out.to_str().expect("utf-8"), "--quiet", "--no-plots", "--bag-compression", c]);
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+        bags.push((read_all(&out.join("bag")), std::fs::metadata(out.join("bag/bag_0.mcap")).expect("mcap").len()));
+        let _ = std::fs::remove_dir_all(&out);
+    }
+    assert!(bags.iter().all(|b| b.0 == bags[0].0), "the compressions hold different messages");
+    assert!(bags[0].1 < bags[1].1 && bags[1].1 < bags[2].1, "sizes zstd < lz4 < none: {:?}", bags.iter().map(|b| b.1).collect::<Vec<_>>());
+    let out = tmp("no-bag");
+    let o = sillage(&["replay", demo, "--out", out.to_str().expect("utf-8"), "--quiet", "--no-plots", "--no-bag"]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(!out.join("bag").exists());
+    let s: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).expect("summary")).expect("json");
+    assert_eq!(s["injected"], 6660);
+    let topics: u64 = s["topics"].as_array().expect("topics").iter().map(|x| x["count"].as_u64().unwrap_or(0)).sum();
+    assert_eq!(topics as usize, bags[0].0.len(), "the summary counts what the bag would hold");
+    let _ = std::fs::remove_dir_all(&out);
+}
+
+#[test]
 fn start_and_duration_select_a_window() {
     let out = tmp("window");
     let o = sillage(&["replay", demo().to_str().expect("utf-8"), "--out", out.to_str().expect("utf-8"), "--quiet", "--no-plots", "--start", "10", "--duration", "5"]);

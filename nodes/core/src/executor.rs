@@ -70,6 +70,10 @@ pub fn remap_topic(declared: &str, p: &Placement, node: &str) -> String {
     resolved
 }
 
+/// A topic of an [`Executor`]'s graph, found by [`Executor::topic_id`].
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub struct TopicId(usize);
+
 /// One delivered message, as handed to the sink.
 #[derive(Debug)]
 pub struct Record<'a> {
@@ -346,13 +350,30 @@ impl Executor {
     pub fn inject(&mut self, stamp: Nanos, topic: &str, msg: Msg) -> Result<bool, ExecutorError> {
         self.start(stamp);
         let Some(&t) = self.by_name.get(topic) else { return Ok(false) };
-        if msg.type_name() != self.topics[t].type_name {
-            return Err(ExecutorError::InputType {
-                topic: topic.to_string(),
-                stamp,
-                got: msg.type_name().to_string(),
-                expected: self.topics[t].type_name.to_string(),
-            });
+        self.inject_on(stamp, TopicId(t), msg).map(|()| true)
+    }
+
+    /// The id of a topic of the graph, for [`Executor::inject_on`] (`None`: no node uses it).
+    pub fn topic_id(&self, topic: &str) -> Option<TopicId> {
+        self.by_name.get(topic).map(|&t| TopicId(t))
+    }
+
+    /// As [`Executor::inject`], on a topic found once by [`Executor::topic_id`] (no name
+    /// lookup per message).
+    pub fn inject_on(&mut self, stamp: Nanos, topic: TopicId, msg: Msg) -> Result<(), ExecutorError> {
+        self.start(stamp);
+        let t = topic.0;
+        let expected = self.topics.get(t).map(|tp| tp.type_name).ok_or_else(|| ExecutorError::InputType {
+            topic: format!("(topic id {t})"),
+            stamp,
+            got: msg.type_name().to_string(),
+            expected: "a topic of this executor".to_string(),
+        })?;
+        let got = msg.type_name();
+        // Type names are the vocabulary's static strings: equal pointers are the common case.
+        if !std::ptr::eq(got, expected) && got != expected {
+            let topic = self.topics[t].name.clone();
+            return Err(ExecutorError::InputType { topic, stamp, got: got.to_string(), expected: expected.to_string() });
         }
         let stamp = if stamp < self.now {
             self.stats.late_inputs += 1;
@@ -361,7 +382,7 @@ impl Executor {
             stamp
         };
         self.push(stamp, Kind::Deliver { topic: t, msg, from: None });
-        Ok(true)
+        Ok(())
     }
 
     /// Processes every event stamped at or before `t`, handing each delivered message to
@@ -437,7 +458,7 @@ impl Executor {
         let mut items = std::mem::take(&mut self.outbox.items);
         for (out, msg) in items.drain(..) {
             match self.slots[node].outputs.get(out) {
-                Some(&t) if self.topics[t].type_name == msg.type_name() => {
+                Some(&t) if std::ptr::eq(self.topics[t].type_name, msg.type_name()) || self.topics[t].type_name == msg.type_name() => {
                     self.push(now, Kind::Deliver { topic: t, msg, from: Some(node) });
                 }
                 _ => self.stats.type_mismatches += 1,

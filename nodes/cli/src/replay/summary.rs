@@ -5,7 +5,7 @@
 
 use serde::Serialize;
 use sillage_core::executor::Record;
-use sillage_core::msg::SearchState;
+use sillage_core::msg::{DiagnosticStatus, SearchState};
 use sillage_core::{Msg, Nanos};
 use std::collections::BTreeMap;
 
@@ -44,12 +44,15 @@ pub struct Status {
 pub struct Collector {
     t0: Option<Nanos>,
     last: Option<Nanos>,
-    by_publisher: BTreeMap<(String, String), u64>,
+    /// (publisher, topic, count), in order of first appearance (a handful of pairs, looked up
+    /// without allocating).
+    by_publisher: Vec<(String, String, u64)>,
     transitions: Vec<Transition>,
     transitions_dropped: u64,
     mode: Option<(u8, Nanos)>,
     time_in_mode: BTreeMap<&'static str, f64>,
-    diagnostics: BTreeMap<String, Status>,
+    /// Last status by name, as received (copied into place, reusing its strings).
+    diagnostics: BTreeMap<String, DiagnosticStatus>,
 }
 
 impl Collector {
@@ -68,8 +71,11 @@ impl Collector {
             self.t0 = Some(r.stamp);
         }
         self.last = Some(r.stamp);
-        let who = r.publisher.unwrap_or("(input)").to_string();
-        *self.by_publisher.entry((who, r.topic.to_string())).or_default() += 1;
+        let who = r.publisher.unwrap_or("(input)");
+        match self.by_publisher.iter_mut().find(|(w, t, _)| t == r.topic && w == who) {
+            Some((_, _, n)) => *n += 1,
+            None => self.by_publisher.push((who.to_string(), r.topic.to_string(), 1)),
+        }
         match r.msg {
             Msg::SearchState(s) => {
                 let changed = self.mode.is_none_or(|(m, _)| m != s.mode);
@@ -86,12 +92,22 @@ impl Collector {
             }
             Msg::DiagnosticArray(d) => {
                 for s in &d.status {
-                    let values = s.values.iter().map(|kv| (kv.key.clone(), kv.value.clone())).collect();
-                    self.diagnostics.insert(s.name.clone(), Status { level: s.level, message: s.message.clone(), values });
+                    match self.diagnostics.get_mut(s.name.as_str()) {
+                        Some(last) => copy_status(last, s),
+                        None => {
+                            self.diagnostics.insert(s.name.clone(), s.clone());
+                        }
+                    }
                 }
             }
             _ => {}
         }
+    }
+
+    fn status(&self, name: &str) -> Option<Status> {
+        let s = self.diagnostics.get(name)?;
+        let values = s.values.iter().map(|kv| (kv.key.clone(), kv.value.clone())).collect();
+        Some(Status { level: s.level, message: s.message.clone(), values })
     }
 
     fn close_mode(&mut self, now: Nanos) {
@@ -109,6 +125,22 @@ impl Collector {
             }
         }
     }
+}
+
+/// Copies `src` into `dst` keeping `dst`'s string buffers (a node's statuses keep their shape
+/// from one second to the next, so this allocates nothing in the steady state).
+fn copy_status(dst: &mut DiagnosticStatus, src: &DiagnosticStatus) {
+    dst.level = src.level;
+    dst.name.clone_from(&src.name);
+    dst.message.clone_from(&src.message);
+    dst.hardware_id.clone_from(&src.hardware_id);
+    dst.values.truncate(src.values.len());
+    for (d, s) in dst.values.iter_mut().zip(&src.values) {
+        d.key.clone_from(&s.key);
+        d.value.clone_from(&s.value);
+    }
+    let have = dst.values.len();
+    dst.values.extend(src.values[have..].iter().cloned());
 }
 
 /// One topic of the output.
@@ -243,17 +275,19 @@ impl Collector {
                 nodes.entry(n.clone()).or_insert_with(|| node_line(n)).received.insert(topic.clone(), counts.get(topic.as_str()).copied().unwrap_or(0));
             }
         }
-        for ((who, topic), n) in &self.by_publisher {
+        for (who, topic, n) in &self.by_publisher {
             if who != "(input)" {
                 nodes.entry(who.clone()).or_insert_with(|| node_line(who)).published.insert(topic.clone(), *n);
             }
         }
-        for (name, st) in &self.diagnostics {
+        for name in self.diagnostics.keys() {
             let node = name.split(':').next().unwrap_or(name).trim();
             let key = nodes.keys().find(|k| k.rsplit('/').next() == Some(node.trim_start_matches('/'))).cloned();
             if let Some(k) = key {
                 if let Some(line) = nodes.get_mut(&k) {
-                    line.diagnostics.insert(name.clone(), st.clone());
+                    if let Some(st) = self.status(name) {
+                        line.diagnostics.insert(name.clone(), st);
+                    }
                 }
             }
         }
@@ -345,5 +379,22 @@ impl Summary {
             let _ = writeln!(s, "  {o}");
         }
         s
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn copied_statuses_equal_their_source_whatever_the_shapes() {
+        let a = DiagnosticStatus::with(0, "n: a", "ok", &[("x", "1".into()), ("y", "2".into())]);
+        let b = DiagnosticStatus::with(1, "n: a", "late", &[("x", "10".into())]);
+        let c = DiagnosticStatus::with(2, "n: a", "bad", &[("x", "1".into()), ("y", "2".into()), ("z", "3".into())]);
+        let mut d = a.clone();
+        for src in [&b, &c, &a, &b] {
+            copy_status(&mut d, src);
+            assert_eq!(&d, src);
+        }
     }
 }
