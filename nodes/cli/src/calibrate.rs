@@ -9,7 +9,8 @@
 //!   `sillage_plume_estimator::labels`). The truth is a CSV file (`distance` with `time` on the
 //!   bag's log-time clock or `elapsed` since the bag's first message), or a topic in the bags:
 //!   `geometry_msgs/PointStamped` (distance = |point|, the source relative to the sensor) or
-//!   `nav_msgs/Odometry` (distance from the pose to `--source X,Y[,Z]`).
+//!   `nav_msgs/Odometry` (distance from the pose to `--source X,Y[,Z]`); see [`crate::truth`],
+//!   which `sillage tune` shares for its bag objectives.
 //! - `--features CSV`: windows already computed (`bout_rate`, `distance`, optionally
 //!   `bout_amplitude`).
 //!
@@ -23,7 +24,7 @@ use plotters::prelude::*;
 use sillage_bag::{bag_info, Bag, ReadOptions};
 use sillage_core::any::normalize_type_name;
 use sillage_core::executor::{resolve_topic, Executor, Placement, Record};
-use sillage_core::msg::{ChemSample, DiagnosticStatus, Odometry, PlumeFeatures, PointStamped};
+use sillage_core::msg::{ChemSample, DiagnosticStatus, PlumeFeatures};
 use sillage_core::{Msg, RosMessage};
 use sillage_plume_estimator::calibration::{fit_report, CalibrationPoint, FitReport};
 use sillage_plume_estimator::labels::{label_windows, parse_features_csv, LabelCounts, LabelOptions, Truth};
@@ -195,12 +196,9 @@ fn run_bag(args: &Args, base: &Params, bag: &Bag, source: &TruthSource) -> Resul
     };
     let truth_topic = match source {
         TruthSource::Topic(t) => {
-            let ty = type_of(t).with_context(|| format!("--truth {t}: neither a file nor a topic of the bag (topics: {})", topic_list(&info)))?;
-            if ty == Odometry::TYPE_NAME {
-                anyhow::ensure!(args.source.is_some(), "--truth {t} is an Odometry topic: give the source position with --source X,Y[,Z]");
-            } else if ty != PointStamped::TYPE_NAME {
-                bail!("--truth {t} has type {ty}; expected {} or {}", PointStamped::TYPE_NAME, Odometry::TYPE_NAME);
-            }
+            let list = crate::truth::topic_list(&info);
+            anyhow::ensure!(type_of(t).is_some(), "--truth {t}: neither a file nor a topic of the bag (topics: {list})");
+            crate::truth::truth_kind(&info, t, args.source.is_some(), "--truth", "--source X,Y[,Z]")?;
             Some(t.clone())
         }
         TruthSource::Csv(..) => None,
@@ -249,22 +247,9 @@ fn run_bag(args: &Args, base: &Params, bag: &Bag, source: &TruthSource) -> Resul
     Ok((features, truth, diag))
 }
 
-fn topic_list(info: &sillage_bag::BagInfo) -> String {
-    info.topics.iter().map(|t| format!("{} [{}]", t.name, t.type_name)).collect::<Vec<_>>().join(", ")
-}
-
 /// The true distance a truth message carries [m].
 fn truth_distance(msg: &Msg, source: Option<&[f64]>) -> Option<f64> {
-    let d = match (msg, source) {
-        (Msg::PointStamped(p), _) => (p.point.x.powi(2) + p.point.y.powi(2) + p.point.z.powi(2)).sqrt(),
-        (Msg::Odometry(o), Some(s)) => {
-            let p = &o.pose.pose.position;
-            let z = s.get(2).copied().unwrap_or(p.z);
-            ((p.x - s[0]).powi(2) + (p.y - s[1]).powi(2) + (p.z - z).powi(2)).sqrt()
-        }
-        _ => return None,
-    };
-    (d.is_finite() && d > 0.0).then_some(d)
+    crate::truth::relative_source(msg, source).map(|r| crate::truth::norm(&r)).filter(|d| *d > 0.0)
 }
 
 fn print_fit(r: &FitReport, rows: &[Row]) {
@@ -364,7 +349,7 @@ where
 mod tests {
     use super::*;
     use sillage_bag::{BagWriter, WriterOptions};
-    use sillage_core::msg::{Header, Point};
+    use sillage_core::msg::{Header, Point, PointStamped};
     use sillage_core::Nanos;
 
     fn temp(name: &str) -> PathBuf {

@@ -7,6 +7,7 @@ mod calibrate;
 mod check;
 mod replay;
 mod sim;
+mod truth;
 mod tune;
 
 /// Odor-guided navigation layer for ROS 2 robots: offline tools.

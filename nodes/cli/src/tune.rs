@@ -1,24 +1,27 @@
 //! `sillage tune SWEEP [--jobs J] [--out DIR] [--shard I/N]`: evaluates every point of a sweep
-//! file (docs/tuning.md) against the simulator, in parallel, streaming one JSON line per
-//! finished episode to `DIR/results.jsonl`; a rerun with the same folder skips what is there,
-//! so an interrupted sweep resumes. Then ranks the points (95 % intervals over seeds) and
-//! writes `ranking.csv`, `ranking.json`, `best_params.yaml` and `plots/`.
+//! file (docs/tuning.md) against the simulator (scenario episodes) and recorded bags (replays
+//! scored against a truth topic), in parallel, streaming one JSON line per finished case to
+//! `DIR/results.jsonl`; a rerun with the same folder skips what is there, so an interrupted
+//! sweep resumes. Then ranks the points (95 % intervals over cases) and writes `ranking.csv`,
+//! `ranking.json`, `best_params.yaml` and `plots/`.
 //!
 //! `--shard I/N` runs a deterministic slice (units numbered point-major, those equal to I
 //! modulo N), so a batch scheduler can spread one sweep over machines; `sillage tune merge
 //! DIR... [--out DIR]` joins their folders and writes the same outputs as one run would.
 
+#[path = "tune_bag.rs"]
+mod bag_eval;
 #[path = "tune_report.rs"]
 mod report;
 #[path = "tune_sim.rs"]
-mod sim_eval;
+pub(crate) mod sim_eval;
 
 use anyhow::{Context, Result};
 use indicatif::{ProgressBar, ProgressStyle};
 use sillage_tune::rank::rank;
 use sillage_tune::results::{self, read_records, ResultsFile};
 use sillage_tune::run::{run_sweep, Shard};
-use sillage_tune::LoadedSweep;
+use sillage_tune::{Case, CaseKind, Evaluator, LoadedSweep, MetricNames, Metrics, Point};
 use std::path::{Path, PathBuf};
 
 /// Arguments of `sillage tune`.
@@ -31,7 +34,7 @@ pub struct Args {
     /// The sweep file (YAML).
     #[arg(required = true)]
     pub sweep: Option<PathBuf>,
-    /// Parallel episodes (default: every core).
+    /// Parallel cases (episodes or bag replays; default: every core).
     #[arg(long, short)]
     pub jobs: Option<usize>,
     /// Output folder (default: out/tune-<sweep name>, with -shard-I-of-N for a shard).
@@ -71,7 +74,8 @@ pub fn run(args: Args) -> Result<()> {
         return merge(&dirs, out, no_plots);
     }
     let path = args.sweep.context("a sweep file is needed")?;
-    let sweep = LoadedSweep::load(&path, sim_eval::METRICS)?;
+    let mut sweep = LoadedSweep::load(&path, METRICS)?;
+    sweep.digest_bags()?;
     let shard = match &args.shard {
         Some(s) => Shard::parse(s)?,
         None => Shard::ALL,
@@ -80,11 +84,10 @@ pub fn run(args: Args) -> Result<()> {
         let suffix = if shard == Shard::ALL { String::new() } else { format!("-shard-{}-of-{}", shard.index, shard.count) };
         PathBuf::from("out").join(format!("tune-{}{suffix}", sweep.name))
     });
-    let ev = &sweep.sweep.evaluate;
-    let eval = sim_eval::SimEvaluator::new(&ev.scenarios, &sweep.sweep.namespace, ev.time_limit, &out.join("points"))?;
+    let eval = Evaluators::new(&sweep, &out.join("points"))?;
     let pool = rayon::ThreadPoolBuilder::new().num_threads(args.jobs.unwrap_or(0)).build()?;
     let bar = if args.quiet { ProgressBar::hidden() } else { ProgressBar::new(0) };
-    bar.set_style(ProgressStyle::with_template("{spinner} {elapsed_precise} [{bar:40}] {pos}/{len} episodes, ETA {eta}")?.progress_chars("=> "));
+    bar.set_style(ProgressStyle::with_template("{spinner} {elapsed_precise} [{bar:40}] {pos}/{len} cases, ETA {eta}")?.progress_chars("=> "));
     let points = sillage_tune::design::points(&sweep).len();
     eprintln!(
         "sweep '{}': {points} points x {} cases, shard {}/{}, {} threads, results in {}",
@@ -101,7 +104,7 @@ pub fn run(args: Args) -> Result<()> {
     };
     let report = pool.install(|| run_sweep(&sweep, &eval, &out, shard, &progress, &|| false))?;
     bar.finish_and_clear();
-    eprintln!("{} episodes in this shard: {} already done, {} run now", report.shard_units, report.skipped, report.evaluated);
+    eprintln!("{} cases in this shard: {} already done, {} run now", report.shard_units, report.skipped, report.evaluated);
     if shard != Shard::ALL {
         eprintln!("shard {}/{}: the ranking covers this shard only; join the shards with `sillage tune merge DIR...`", shard.index, shard.count);
     }
@@ -120,7 +123,7 @@ fn merge(dirs: &[PathBuf], out: Option<PathBuf>, no_plots: bool) -> Result<()> {
     }
     let points = sillage_tune::design::points(&sweep).len() * sillage_tune::run::cases(&sweep).len();
     let merged = read_records(&out)?;
-    eprintln!("merged {} folders: {} of {points} episodes", dirs.len(), merged.len());
+    eprintln!("merged {} folders: {} of {points} cases", dirs.len(), merged.len());
     finish(&out, &sweep, merged, !no_plots)
 }
 
@@ -138,7 +141,7 @@ fn finish(out: &Path, sweep: &LoadedSweep, records: Vec<sillage_tune::Record>, p
         println!("{:>4}  {:>8.4} [{:.4}, {:.4}]  {:>5}  {}  ({})", r.rank, r.score, r.score_low, r.score_high, r.cases, values.join(" "), terms.join("; "));
     }
     if !errors.is_empty() {
-        println!("{} episodes failed to run (see results.jsonl)", errors.len());
+        println!("{} cases failed to run (see results.jsonl)", errors.len());
     }
     for f in files {
         println!("wrote {}", f.display());
@@ -146,7 +149,48 @@ fn finish(out: &Path, sweep: &LoadedSweep, records: Vec<sillage_tune::Record>, p
     Ok(())
 }
 
-/// Validates a sweep file as `sillage tune` would load it (for `sillage check`).
+/// The metric names of the evaluators.
+pub(crate) const METRICS: MetricNames = MetricNames { scenarios: sim_eval::METRICS, bags: bag_eval::METRICS };
+
+/// Validates a sweep file as `sillage tune` would load it (for `sillage check`), and builds every
+/// point's parameter file (a value out of a node's range is refused with its key); the bags
+/// themselves are not opened (they may not be recorded yet).
 pub fn check_sweep(path: &std::path::Path) -> Result<(), String> {
-    LoadedSweep::load(path, sim_eval::METRICS).map(|_| ()).map_err(|e| e.to_string())
+    let s = LoadedSweep::load(path, METRICS).map_err(|e| e.to_string())?;
+    if let Some(p) = s.sweep.evaluate.truth.as_ref().and_then(|t| t.scenario.as_ref()) {
+        bag_eval::scenario_truth(p).map_err(|e| format!("{e:#}"))?;
+    }
+    for p in sillage_tune::design::points(&s) {
+        sillage_tune::params_out::point_params_text(s.base_text.as_deref(), &s.sweep.namespace, &p, &[]).map_err(|e| e.to_string())?;
+    }
+    Ok(())
+}
+
+/// The simulator for scenario cases and the bag replayer for bag cases.
+struct Evaluators {
+    sim: Option<sim_eval::SimEvaluator>,
+    bags: Option<bag_eval::BagEvaluator>,
+    metrics: Vec<&'static str>,
+}
+
+impl Evaluators {
+    fn new(sweep: &LoadedSweep, points_dir: &Path) -> Result<Evaluators> {
+        let (ev, ns) = (&sweep.sweep.evaluate, &sweep.sweep.namespace);
+        let sim = (!ev.scenarios.is_empty()).then(|| sim_eval::SimEvaluator::new(&ev.scenarios, ns, ev.time_limit, points_dir)).transpose()?;
+        let bags = (!ev.bags.is_empty()).then(|| bag_eval::BagEvaluator::new(ev, ns, points_dir)).transpose()?;
+        Ok(Evaluators { sim, bags, metrics: sim_eval::METRICS.iter().chain(bag_eval::METRICS).copied().collect() })
+    }
+}
+
+impl Evaluator for Evaluators {
+    fn metrics(&self) -> &[&'static str] {
+        &self.metrics
+    }
+
+    fn evaluate(&self, point: &Point, params: &str, case: &Case) -> Result<Metrics, String> {
+        match case.kind {
+            CaseKind::Scenario => self.sim.as_ref().ok_or("no scenario in the sweep")?.evaluate(point, params, case),
+            CaseKind::Bag => self.bags.as_ref().ok_or("no bag in the sweep")?.evaluate(point, params, case),
+        }
+    }
 }

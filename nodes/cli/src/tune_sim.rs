@@ -31,15 +31,17 @@ impl SimEvaluator {
         Ok(SimEvaluator { scenarios, namespace: namespace.to_string(), time_limit, points_dir: points_dir.to_path_buf() })
     }
 
-    /// The point's parameter file, written (atomically) if it is not there yet.
-    fn point_file(&self, point: &Point, text: &str, case: &Case) -> Result<PathBuf, String> {
-        let path = self.points_dir.join(format!("{}.yaml", point.id));
-        if !path.exists() {
-            let tmp = self.points_dir.join(format!(".{}.{}.{}.tmp", point.id, case.source, case.seed_index));
-            std::fs::write(&tmp, text).and_then(|()| std::fs::rename(&tmp, &path)).map_err(|e| format!("{}: {e}", path.display()))?;
-        }
-        Ok(path)
+}
+
+/// Writes `dir/<file>` (atomically) if it is not there yet: a point's parameter file, which
+/// parallel cases of the point may ask for at once. The stack is built from it.
+pub fn point_file(dir: &Path, file: &str, text: &str, case: &Case) -> Result<PathBuf, String> {
+    let path = dir.join(file);
+    if !path.exists() {
+        let tmp = dir.join(format!(".{file}.{:?}.{}.{}.tmp", case.kind, case.source, case.seed_index));
+        std::fs::write(&tmp, text).and_then(|()| std::fs::rename(&tmp, &path)).map_err(|e| format!("{}: {e}", path.display()))?;
     }
+    Ok(path)
 }
 
 impl Evaluator for SimEvaluator {
@@ -48,7 +50,7 @@ impl Evaluator for SimEvaluator {
     }
 
     fn evaluate(&self, point: &Point, params: &str, case: &Case) -> Result<Metrics, String> {
-        let file = self.point_file(point, params, case)?;
+        let file = point_file(&self.points_dir, &format!("{}.yaml", point.id), params, case)?;
         let scenario = self.scenarios.get(case.source).ok_or("no such scenario")?;
         let sim = Sim {
             scenario: scenario.clone(),

@@ -191,7 +191,7 @@ mod tests {
     fn sweep(design: &str, params: &str) -> LoadedSweep {
         let text = format!("design: {design}\nparameters:\n{params}\nevaluate: {{scenarios: [d.yaml], seeds: 1}}\nobjective: [{{metric: m, stat: mean, weight: 1.0}}]\n");
         let s = parse(&text, "t.yaml").unwrap_or_else(|e| panic!("{e}"));
-        LoadedSweep::from_parts(s, "t.yaml".into(), "t".into(), None, &["m"]).unwrap_or_else(|e| panic!("{e}"))
+        LoadedSweep::from_parts(s, "t.yaml".into(), "t".into(), None, crate::MetricNames { scenarios: &["m"], bags: &[] }).unwrap_or_else(|e| panic!("{e}"))
     }
 
     #[test]

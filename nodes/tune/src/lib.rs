@@ -1,7 +1,7 @@
 //! Parameter sweeps over the sillage node graph (the logic behind `sillage tune`).
 //!
 //! - [`sweep`]: the sweep file (YAML, unknown keys refused), loaded and validated against the
-//!   nodes' own parameter lists;
+//!   nodes' own parameter lists; [`bags`]: its bag section (bags, truth topic, windows);
 //! - [`design`]: the points of a sweep (grid, seeded random, seeded Latin hypercube);
 //! - [`params_out`]: a point as a ROS 2 parameter file the nodes load unchanged;
 //! - [`run`]: the [`Evaluator`] trait, the work units of a sweep, shards, the parallel loop;
@@ -11,6 +11,7 @@
 //! Nothing here knows the simulator: an [`Evaluator`] turns (point, case) into metrics, so the
 //! same sweep runs against the simulator, against bags, or against a synthetic objective in tests.
 
+pub mod bags;
 pub mod design;
 pub mod error;
 pub mod params_out;
@@ -24,6 +25,6 @@ pub use design::{ParamValue, Point};
 pub use error::TuneError;
 pub use rank::{rank, Ranked, TermEstimate};
 pub use results::{Record, ResultsFile};
-pub use run::{Case, Evaluator, Metrics, Shard, Unit};
-pub use sweep::{LoadedSweep, Sweep};
+pub use run::{Case, CaseKind, Evaluator, Metrics, Shard, Unit};
+pub use sweep::{LoadedSweep, MetricNames, Sweep};
 pub use run::{run_sweep, RunReport};

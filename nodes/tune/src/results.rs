@@ -33,7 +33,7 @@ pub struct Record {
     pub index: usize,
     /// The point's values.
     pub values: Vec<(String, ParamValue)>,
-    /// Case key (`scenario#seed`).
+    /// Case key (`scenario#seed`, or the bag's label).
     pub case: String,
     /// World seed.
     pub seed: u64,
@@ -187,7 +187,7 @@ mod tests {
     #[test]
     fn a_partial_last_line_is_ignored_and_other_bad_lines_are_named() {
         let p = Point::new(0, vec![("arbiter.surge.speed".into(), ParamValue::Float(0.2))]);
-        let c = Case { source: 0, source_label: "demo".into(), seed_index: 0, seed: 3 };
+        let c = Case { source: 0, source_label: "demo".into(), seed_index: 0, seed: 3, ..Default::default() };
         let mut m = Metrics::new();
         m.insert("time".into(), f64::NAN);
         m.insert("success".into(), 1.0);

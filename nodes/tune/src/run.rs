@@ -1,7 +1,7 @@
 //! The work of a sweep: units (point x case), their deterministic split into shards, and the
 //! parallel loop (rayon) that evaluates the units still to do.
 //!
-//! A case is one scenario with one seed. Units are numbered point-major
+//! A case is one scenario with one seed, or one bag (replayed once). Units are numbered point-major
 //! (`point.index * cases + case`), and shard `I/N` takes the units whose number is `I` modulo
 //! `N`, so shards are disjoint, cover the sweep, and depend only on the sweep file.
 
@@ -15,39 +15,63 @@ use std::collections::{BTreeMap, HashSet};
 /// Metrics of one case, by name (NaN: not defined for this case, e.g. time when it failed).
 pub type Metrics = BTreeMap<String, f64>;
 
-/// One scenario with one seed.
-#[derive(Debug, Clone, PartialEq, Eq)]
+/// What a case runs on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum CaseKind {
+    /// A scenario episode (`source` indexes `evaluate.scenarios`).
+    #[default]
+    Scenario,
+    /// A bag replay (`source` indexes `evaluate.bags`).
+    Bag,
+}
+
+/// One scenario with one seed, or one bag.
+#[derive(Debug, Clone, PartialEq, Eq, Default)]
 pub struct Case {
-    /// Index into `evaluate.scenarios`.
+    /// Scenario or bag.
+    pub kind: CaseKind,
+    /// Index into `evaluate.scenarios` or `evaluate.bags`.
     pub source: usize,
-    /// Label of the scenario (its file stem).
+    /// Label of the scenario or bag (its file stem, or the bag's `name`).
     pub source_label: String,
-    /// Seed index (0-based) within the scenario.
+    /// Seed index (0-based) within the scenario (0 for a bag).
     pub seed_index: usize,
-    /// The world seed: `base_seed + seed_index`.
+    /// The world seed: `base_seed + seed_index` (0 for a bag).
     pub seed: u64,
 }
 
 impl Case {
-    /// The key that names the case in the results file.
+    /// The key that names the case in the results file: `scenario#seed`, or the bag's label.
     pub fn key(&self) -> String {
-        format!("{}#{}", self.source_label, self.seed)
+        match self.kind {
+            CaseKind::Scenario => format!("{}#{}", self.source_label, self.seed),
+            CaseKind::Bag => self.source_label.clone(),
+        }
     }
 }
 
-/// The cases of a sweep, scenario-major.
+/// Labels from file stems; a stem used twice gets the item's index appended.
+fn labels(stems: &[String]) -> Vec<String> {
+    stems.iter().enumerate().map(|(i, s)| if stems.iter().filter(|x| *x == s).count() > 1 { format!("{s}.{i}") } else { s.clone() }).collect()
+}
+
+fn stem(p: &std::path::Path, default: &str) -> String {
+    p.file_stem().and_then(|x| x.to_str()).unwrap_or(default).to_string()
+}
+
+/// The cases of a sweep: scenario-major, then one per bag.
 pub fn cases(s: &LoadedSweep) -> Vec<Case> {
     let ev = &s.sweep.evaluate;
     let mut out = Vec::new();
-    for (source, path) in ev.scenarios.iter().enumerate() {
-        let label = path.file_stem().and_then(|x| x.to_str()).unwrap_or("scenario").to_string();
-        // Two scenario files with the same stem get their index appended.
-        let dup = ev.scenarios.iter().filter(|p| p.file_stem() == path.file_stem()).count() > 1;
-        let source_label = if dup { format!("{label}.{source}") } else { label };
+    let scenario_labels = labels(&ev.scenarios.iter().map(|p| stem(p, "scenario")).collect::<Vec<_>>());
+    for (source, source_label) in scenario_labels.into_iter().enumerate() {
         for seed_index in 0..ev.seeds {
-            out.push(Case { source, source_label: source_label.clone(), seed_index, seed: ev.base_seed.wrapping_add(seed_index as u64) });
+            let seed = ev.base_seed.wrapping_add(seed_index as u64);
+            out.push(Case { kind: CaseKind::Scenario, source, source_label: source_label.clone(), seed_index, seed });
         }
     }
+    let bag_labels = labels(&ev.bags.iter().map(|b| b.name.clone().unwrap_or_else(|| stem(&b.path, "bag"))).collect::<Vec<_>>());
+    out.extend(bag_labels.into_iter().enumerate().map(|(source, source_label)| Case { kind: CaseKind::Bag, source, source_label, ..Default::default() }));
     out
 }
 
@@ -195,7 +219,7 @@ mod tests {
 
     fn setup(np: usize, nc: usize) -> (Vec<Point>, Vec<Case>) {
         let points = (0..np).map(|i| Point::new(i, vec![("arbiter.surge.speed".into(), ParamValue::Int(i as i64))])).collect();
-        let cases = (0..nc).map(|i| Case { source: 0, source_label: "s".into(), seed_index: i, seed: i as u64 }).collect();
+        let cases = (0..nc).map(|i| Case { source: 0, source_label: "s".into(), seed_index: i, seed: i as u64, ..Default::default() }).collect();
         (points, cases)
     }
 

@@ -18,13 +18,20 @@
 //!   - {metric: time, stat: median, weight: -0.002}
 //! ```
 //!
+//! `evaluate` may also (or instead) list recorded bags with a truth topic ([`crate::bags`]):
+//! each bag is one case, replayed once through the sensing nodes and scored by bag metrics
+//! (bearing and distance error). A sweep may mix scenarios and bags: scenario metrics are taken
+//! over the scenario cases, bag metrics over the bag cases, and the score adds the terms.
+//!
 //! Validation (each error names the key): every parameter key must be one of the node's own
 //! parameters (the flattened defaults of [`NodeKind::default_params`]); ranges need
 //! `min <= max` (and `min > 0` on a log scale), lists at least one value of the parameter's
 //! type; `steps` is for grids, `samples` for random and Latin-hypercube designs; objective
-//! metrics must be ones the evaluator reports, with a known statistic and a non-zero weight.
-//! Bag evaluation (`evaluate.bags`) is refused: it is not implemented yet.
+//! metrics must be ones the evaluator reports for what the sweep evaluates on (a bag metric
+//! needs bags, a scenario metric scenarios), with a known statistic and a non-zero weight; a
+//! sweep over bags only cannot vary arbiter parameters (the arbiter is not replayed).
 
+use crate::bags::{BagEntry, BagTruth};
 use crate::design::ParamValue;
 use crate::error::TuneError;
 use serde::{Deserialize, Serialize};
@@ -101,10 +108,11 @@ pub struct Evaluate {
     /// Scenario files (relative to the sweep file).
     #[serde(default)]
     pub scenarios: Vec<PathBuf>,
-    /// Bags with a truth topic (refused: not implemented yet).
+    /// Bags with a truth topic (relative to the sweep file); each is one case.
     #[serde(default)]
-    pub bags: Vec<PathBuf>,
-    /// Seeds (episodes) per scenario and point.
+    pub bags: Vec<BagEntry>,
+    /// Seeds (episodes) per scenario and point (scenarios only; bags are replayed once).
+    #[serde(default)]
     pub seeds: usize,
     /// First world seed.
     #[serde(default)]
@@ -112,6 +120,21 @@ pub struct Evaluate {
     /// Episode length override [s].
     #[serde(default)]
     pub time_limit: Option<f64>,
+    /// The truth the bags are scored against.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub truth: Option<BagTruth>,
+    /// Topic remaps `from:=to` for every node when replaying bags.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub remaps: Vec<String>,
+}
+
+/// The metric names an evaluation reports, by what it runs on.
+#[derive(Debug, Clone, Copy)]
+pub struct MetricNames<'a> {
+    /// Metrics of a scenario episode.
+    pub scenarios: &'a [&'a str],
+    /// Metrics of a bag replay.
+    pub bags: &'a [&'a str],
 }
 
 /// The statistic a term takes over a point's cases.
@@ -210,9 +233,13 @@ pub struct LoadedSweep {
     pub base_text: Option<String>,
     /// Parameter types, in `sweep.parameters` order.
     pub types: Vec<ParamTypeName>,
-    /// FNV-1a digest of each scenario file's bytes (empty when not read from files).
+    /// FNV-1a digest of each scenario file's bytes, then of the truth scenario's (empty when
+    /// not read from files).
     #[serde(default)]
     pub scenario_digests: Vec<String>,
+    /// [`crate::bags::bag_digest`] of each bag ([`LoadedSweep::digest_bags`]; empty before).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub bag_digests: Vec<String>,
 }
 
 /// [`ParamType`] in serialisable form.
@@ -239,21 +266,28 @@ pub fn parse_type(name: &str) -> ParamType {
 
 impl LoadedSweep {
     /// Reads and validates a sweep file; `metrics` are the metric names the evaluator reports.
-    pub fn load(path: &Path, metrics: &[&str]) -> Result<LoadedSweep, TuneError> {
+    /// Scenario and base parameter files are read; bags are not (see [`Self::digest_bags`]).
+    pub fn load(path: &Path, metrics: MetricNames) -> Result<LoadedSweep, TuneError> {
         let text = std::fs::read_to_string(path).map_err(|e| TuneError::io(path, e))?;
         let dir = path.parent().unwrap_or(Path::new("."));
         let mut sweep = parse(&text, &path.display().to_string())?;
         let join = |p: &PathBuf| if p.is_absolute() { p.clone() } else { dir.join(p) };
         sweep.base_params = sweep.base_params.as_ref().map(join);
         sweep.evaluate.scenarios = sweep.evaluate.scenarios.iter().map(join).collect();
-        sweep.evaluate.bags = sweep.evaluate.bags.iter().map(join).collect();
+        for b in &mut sweep.evaluate.bags {
+            b.path = join(&b.path);
+        }
+        if let Some(t) = &mut sweep.evaluate.truth {
+            t.scenario = t.scenario.as_ref().map(join);
+        }
         let base_text = match &sweep.base_params {
             Some(p) => Some(std::fs::read_to_string(p).map_err(|e| TuneError::io(p, e))?),
             None => None,
         };
         let stem = path.file_stem().and_then(|s| s.to_str()).unwrap_or("sweep").to_string();
         let mut digests = Vec::new();
-        for p in &sweep.evaluate.scenarios {
+        let truth_scenario = sweep.evaluate.truth.as_ref().and_then(|t| t.scenario.as_ref());
+        for p in sweep.evaluate.scenarios.iter().chain(truth_scenario) {
             let bytes = std::fs::read(p).map_err(|e| TuneError::io(p, e))?;
             digests.push(format!("{:016x}", fnv1a(&bytes)));
         }
@@ -263,25 +297,40 @@ impl LoadedSweep {
     }
 
     /// Validates an already parsed sweep (paths as given).
-    pub fn from_parts(sweep: Sweep, file: String, stem: String, base_text: Option<String>, metrics: &[&str]) -> Result<LoadedSweep, TuneError> {
+    pub fn from_parts(sweep: Sweep, file: String, stem: String, base_text: Option<String>, metrics: MetricNames) -> Result<LoadedSweep, TuneError> {
         let types = validate(&sweep, &file, metrics)?;
         let name = sweep.name.clone().unwrap_or(stem);
         let types = types.into_iter().map(|t| type_name(t).to_string()).collect();
-        Ok(LoadedSweep { sweep, name, file, base_text, types, scenario_digests: Vec::new() })
+        Ok(LoadedSweep { sweep, name, file, base_text, types, scenario_digests: Vec::new(), bag_digests: Vec::new() })
+    }
+
+    /// Reads a digest of every bag (so a changed bag is another sweep); a missing or
+    /// unreadable bag is an error naming it. Called before a run, not by `sillage check`.
+    pub fn digest_bags(&mut self) -> Result<(), TuneError> {
+        self.bag_digests = self.sweep.evaluate.bags.iter().map(|b| crate::bags::bag_digest(&b.path)).collect::<Result<_, _>>()?;
+        Ok(())
     }
 
     /// A stable fingerprint of everything that decides the results (16 hex digits): the
-    /// sweep, the base parameter text and the scenario files' contents, not where the files
-    /// are (shards may run on machines with other paths).
+    /// sweep, the base parameter text, the scenario files' contents and the bags' digests, not
+    /// where the files are (shards may run on machines with other paths).
     pub fn fingerprint(&self) -> String {
         let mut s = self.sweep.clone();
         s.name = None;
         s.base_params = None;
-        let names = |v: &mut Vec<PathBuf>| v.iter_mut().for_each(|p| *p = p.file_name().map(PathBuf::from).unwrap_or_default());
-        names(&mut s.evaluate.scenarios);
-        names(&mut s.evaluate.bags);
-        let canon = serde_json::to_string(&(&s, &self.base_text, &self.scenario_digests)).unwrap_or_default();
-        format!("{:016x}", fnv1a(canon.as_bytes()))
+        let name = |p: &mut PathBuf| *p = p.file_name().map(PathBuf::from).unwrap_or_default();
+        s.evaluate.scenarios.iter_mut().for_each(name);
+        s.evaluate.bags.iter_mut().for_each(|b| name(&mut b.path));
+        if let Some(t) = s.evaluate.truth.as_mut().and_then(|t| t.scenario.as_mut()) {
+            name(t);
+        }
+        // Sweeps without bags keep the fingerprint they had before bags existed.
+        let canon = if self.bag_digests.is_empty() {
+            serde_json::to_string(&(&s, &self.base_text, &self.scenario_digests))
+        } else {
+            serde_json::to_string(&(&s, &self.base_text, &self.scenario_digests, &self.bag_digests))
+        };
+        format!("{:016x}", fnv1a(canon.unwrap_or_default().as_bytes()))
     }
 }
 
@@ -300,11 +349,21 @@ pub fn parse(text: &str, file: &str) -> Result<Sweep, TuneError> {
     let de = serde_yaml::Deserializer::from_str(text);
     serde_path_to_error::deserialize(de).map_err(|e| {
         let key = e.path().to_string();
-        TuneError::Schema { file: file.to_string(), key, reason: e.inner().to_string() }
+        // serde_yaml names the key too (without list indices): say it once.
+        let reason = e.inner().to_string();
+        let mut bare = key.clone();
+        while let (Some(a), Some(b)) = (bare.find('['), bare.find(']')) {
+            if b < a {
+                break;
+            }
+            bare.replace_range(a..=b, "");
+        }
+        let reason = reason.strip_prefix(&format!("{bare}: ")).map(str::to_string).unwrap_or(reason);
+        TuneError::Schema { file: file.to_string(), key, reason }
     })
 }
 
-fn validate(s: &Sweep, file: &str, metrics: &[&str]) -> Result<Vec<ParamType>, TuneError> {
+fn validate(s: &Sweep, file: &str, metrics: MetricNames) -> Result<Vec<ParamType>, TuneError> {
     let schema = |key: &str, reason: String| TuneError::Schema { file: file.to_string(), key: key.to_string(), reason };
     let known = known_parameters();
     match s.design.kind {
@@ -337,16 +396,18 @@ fn validate(s: &Sweep, file: &str, metrics: &[&str]) -> Result<Vec<ParamType>, T
         types.push(*t);
     }
     let ev = &s.evaluate;
-    if !ev.bags.is_empty() {
-        return Err(schema(
-            "evaluate.bags",
-            "bag evaluation (bearing and distance error against a truth topic) is not implemented yet; evaluate on scenarios".into(),
-        ));
+    if ev.scenarios.is_empty() && ev.bags.is_empty() {
+        return Err(schema("evaluate.scenarios", "no scenario and no bag (evaluate.bags) to evaluate on".into()));
     }
     if ev.scenarios.is_empty() {
-        return Err(schema("evaluate.scenarios", "no scenario to evaluate on".into()));
-    }
-    if ev.seeds == 0 {
+        if ev.seeds != 0 || ev.time_limit.is_some() {
+            let key = if ev.seeds != 0 { "evaluate.seeds" } else { "evaluate.time_limit" };
+            return Err(schema(key, "is for scenarios; each bag is replayed once".into()));
+        }
+        if let Some(p) = s.parameters.iter().find(|p| p.key.starts_with("arbiter.")) {
+            return Err(param_err(file, &p.key, "the arbiter is not replayed on bags: it cannot change a bag metric".into()));
+        }
+    } else if ev.seeds == 0 {
         return Err(schema("evaluate.seeds", "must be >= 1".into()));
     }
     if let Some(t) = ev.time_limit {
@@ -354,18 +415,23 @@ fn validate(s: &Sweep, file: &str, metrics: &[&str]) -> Result<Vec<ParamType>, T
             return Err(schema("evaluate.time_limit", format!("must be > 0 [s], got {t}")));
         }
     }
+    crate::bags::validate(ev, file)?;
     if s.objective.is_empty() {
         return Err(schema("objective", "no objective term".into()));
     }
     for (index, t) in s.objective.iter().enumerate() {
         let bad = |reason: String| TuneError::Objective { file: file.to_string(), index, metric: t.metric.clone(), reason };
-        if !metrics.contains(&t.metric.as_str()) {
-            let hint = if matches!(t.metric.as_str(), "bearing_error" | "distance_error") {
-                " (bag objectives are not implemented yet)"
-            } else {
-                ""
-            };
-            return Err(bad(format!("unknown metric{hint}; known: {}", metrics.join(", "))));
+        let m = t.metric.as_str();
+        if metrics.scenarios.contains(&m) {
+            if ev.scenarios.is_empty() {
+                return Err(bad("a scenario metric, and the sweep evaluates no scenario (evaluate.scenarios)".into()));
+            }
+        } else if metrics.bags.contains(&m) {
+            if ev.bags.is_empty() {
+                return Err(bad("a bag metric, and the sweep evaluates no bag (evaluate.bags)".into()));
+            }
+        } else {
+            return Err(bad(format!("unknown metric; scenario metrics: {}; bag metrics: {}", metrics.scenarios.join(", "), metrics.bags.join(", "))));
         }
         if !(t.weight.is_finite() && t.weight != 0.0) {
             return Err(bad(format!("weight must be finite and non-zero, got {}", t.weight)));
@@ -430,7 +496,7 @@ fn show(v: &Value) -> String {
 mod tests {
     use super::*;
 
-    const METRICS: &[&str] = &["success", "time", "path_ratio"];
+    const METRICS: MetricNames = MetricNames { scenarios: &["success", "time", "path_ratio"], bags: &["bearing_error", "distance_error"] };
 
     fn load(text: &str) -> Result<LoadedSweep, TuneError> {
         let s = parse(text, "s.yaml")?;
@@ -463,12 +529,54 @@ mod tests {
             (GOOD.replace("values: [0.03, 0.05]", "values: [fast]"), "is not a float"),
             (GOOD.replace("steps: 3", "steps: 0"), "steps = 0"),
             (GOOD.replace("metric: success", "metric: sucess"), "objective[0] 'sucess': unknown metric"),
-            (GOOD.replace("metric: success", "metric: bearing_error"), "bag objectives are not implemented"),
+            (GOOD.replace("metric: success", "metric: bearing_error"), "objective[0] 'bearing_error': a bag metric, and the sweep evaluates no bag"),
             (GOOD.replace("weight: 1.0", "weight: 0.0"), "non-zero"),
             (GOOD.replace("stat: rate", "stat: mode"), "objective[0].stat"),
-            (GOOD.replace("seeds: 2", "seeds: 2, bags: [b]"), "evaluate.bags"),
+            (GOOD.replace("seeds: 2", "seeds: 2, bags: [b]"), "evaluate.truth: bags need a truth topic"),
             (GOOD.replace("seeds: 2", "seeds: 2, seed: 3"), "unknown field `seed`"),
             (GOOD.replace("kind: grid", "kind: lhs"), "design.samples"),
+        ];
+        for (text, want) in cases {
+            let m = err_of(&text);
+            assert!(m.contains(want), "want '{want}', got: {m}");
+        }
+    }
+
+    const BAGS: &str = "design: {kind: grid}\nparameters:\n  - {key: bearing_decoder.wind.air_speed, values: [0.25, 0.5]}\nevaluate:\n  bags: [a/run1, {path: run2.mcap, start: 5.0, duration: 60.0}]\n  truth: {topic: /odom, source: [3.0, 6.0]}\nobjective:\n  - {metric: bearing_error, stat: mean, weight: -1.0}\n";
+
+    #[test]
+    fn a_bag_sweep_loads_and_mixing_with_scenarios_is_allowed() {
+        let s = load(BAGS).unwrap_or_else(|e| panic!("{e}"));
+        assert_eq!(s.sweep.evaluate.bags[1].duration, Some(60.0));
+        assert_eq!(s.sweep.evaluate.truth.as_ref().map(|t| (t.max_gap, t.warmup, t.max_age)), Some((1.0, 0.0, 1.0)));
+        let mixed = BAGS.replace("evaluate:\n", "evaluate:\n  scenarios: [demo.yaml]\n  seeds: 2\n") + "  - {metric: success, stat: rate, weight: 1.0}\n";
+        load(&mixed).unwrap_or_else(|e| panic!("mixed: {e}"));
+        // A digest of the bags changes the fingerprint; without bags it is as before.
+        let mut d = s.clone();
+        d.bag_digests = vec!["0".into(), "1".into()];
+        assert_ne!(d.fingerprint(), s.fingerprint());
+    }
+
+    #[test]
+    fn bad_bag_sweeps_are_refused_naming_the_key() {
+        let cases = [
+            (BAGS.replace("  truth: {topic: /odom, source: [3.0, 6.0]}\n", ""), "evaluate.truth: bags need a truth topic"),
+            (BAGS.replace("topic: /odom", "topic: ''"), "evaluate.truth.topic: empty topic name"),
+            (BAGS.replace("topic: /odom", "topc: /odom"), "evaluate.truth: unknown field `topc`"),
+            (BAGS.replace("source: [3.0, 6.0]", "source: [3.0]"), "evaluate.truth.source: expected [x, y] or [x, y, z]"),
+            (BAGS.replace("source: [3.0, 6.0]", "source: [3.0, 6.0], scenario: s.yaml"), "evaluate.truth.scenario: give either"),
+            (BAGS.replace("source: [3.0, 6.0]", "source: [3.0, 6.0], max_gap: 0.0"), "evaluate.truth.max_gap: must be > 0"),
+            (BAGS.replace("source: [3.0, 6.0]", "source: [3.0, 6.0], warmup: -1.0"), "evaluate.truth.warmup: must be >= 0"),
+            (BAGS.replace("start: 5.0", "strat: 5.0"), "s.yaml: evaluate.bags[1]: unknown field `strat`"),
+            (BAGS.replace("start: 5.0", "start: -5.0"), "evaluate.bags[1].start: must be >= 0"),
+            (BAGS.replace("duration: 60.0", "duration: 0.0"), "evaluate.bags[1].duration: must be > 0"),
+            (BAGS.replace("bags: [a/run1, ", "bags: [7, "), "evaluate.bags[0]: expected a bag path"),
+            (BAGS.replace("evaluate:\n", "evaluate:\n  seeds: 3\n"), "evaluate.seeds: is for scenarios"),
+            (BAGS.replace("evaluate:\n", "evaluate:\n  remaps: [chem]\n"), "evaluate.remaps[0]: 'chem' is not of the form from:=to"),
+            (BAGS.replace("metric: bearing_error", "metric: success"), "objective[0] 'success': a scenario metric, and the sweep evaluates no scenario"),
+            (BAGS.replace("metric: bearing_error", "metric: bearing_eror"), "unknown metric; scenario metrics: success, time, path_ratio; bag metrics: bearing_error"),
+            (BAGS.replace("bearing_decoder.wind.air_speed", "arbiter.surge.speed"), "parameter 'arbiter.surge.speed': the arbiter is not replayed"),
+            (BAGS.replace("  bags: [a/run1, {path: run2.mcap, start: 5.0, duration: 60.0}]\n", ""), "evaluate.scenarios: no scenario and no bag"),
         ];
         for (text, want) in cases {
             let m = err_of(&text);

@@ -3,7 +3,14 @@
 
 use sillage_tune::design::points;
 use sillage_tune::params_out::point_params_text;
-use sillage_tune::LoadedSweep;
+use sillage_tune::{LoadedSweep, MetricNames};
+
+/// The metric names of the simulator and bag evaluators (nodes/cli/src/tune_sim.rs and
+/// nodes/cli/src/tune_bag.rs).
+const METRICS: MetricNames = MetricNames {
+    scenarios: &["success", "time", "path_ratio", "final_distance", "min_distance", "false_declarations", "collisions", "halts"],
+    bags: &["bearing_error", "bearing_coverage", "distance_error", "distance_relative_error", "distance_coverage"],
+};
 use std::path::Path;
 
 #[test]
@@ -15,9 +22,8 @@ fn shipped_sweeps_load_and_their_points_build_the_stack() {
         if path.extension().and_then(|x| x.to_str()) != Some("yaml") {
             continue;
         }
-        // The simulator evaluator's metric names (nodes/cli/src/tune_sim.rs).
-        let metrics = ["success", "time", "path_ratio", "final_distance", "min_distance", "false_declarations", "collisions", "halts"];
-        let s = LoadedSweep::load(&path, &metrics).unwrap_or_else(|e| panic!("{e}"));
+        // Bags are made by the user (e.g. `sillage sim --record`), so they need not exist.
+        let s = LoadedSweep::load(&path, METRICS).unwrap_or_else(|e| panic!("{e}"));
         assert!(s.sweep.evaluate.scenarios.iter().all(|p| p.exists()), "{}: scenario files exist", path.display());
         let pts = points(&s);
         assert!(!pts.is_empty());
@@ -39,8 +45,7 @@ fn the_fingerprint_follows_file_contents_not_paths() {
     for f in ["sweeps/demo_declare.yaml", "scenarios/demo.yaml", "sillage.yaml"] {
         std::fs::copy(root.join(f), tmp.join(f)).unwrap_or_else(|e| panic!("{f}: {e}"));
     }
-    let metrics = ["success", "time", "min_distance"];
-    let fp = |p: &Path| LoadedSweep::load(p, &metrics).unwrap_or_else(|e| panic!("{e}")).fingerprint();
+    let fp = |p: &Path| LoadedSweep::load(p, METRICS).unwrap_or_else(|e| panic!("{e}")).fingerprint();
     let shipped = fp(&root.join("sweeps/demo_declare.yaml"));
     assert_eq!(fp(&tmp.join("sweeps/demo_declare.yaml")), shipped, "same files elsewhere");
     let scenario = tmp.join("scenarios/demo.yaml");

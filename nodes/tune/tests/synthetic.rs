@@ -12,7 +12,7 @@ use sillage_tune::rank::rank;
 use sillage_tune::results::{merge, read_records, RESULTS};
 use sillage_tune::run::{run_sweep, Case, Evaluator, Metrics, Shard};
 use sillage_tune::sweep::{parse, LoadedSweep};
-use sillage_tune::{Point, Ranked};
+use sillage_tune::{MetricNames, Point, Ranked};
 use std::path::PathBuf;
 use std::sync::atomic::{AtomicUsize, Ordering};
 
@@ -63,7 +63,7 @@ fn sweep(design: &str, extra: &str) -> LoadedSweep {
         "name: sod\ndesign: {design}\nparameters:\n  - {{key: {KEY}, min: 0.05, max: 1.0, {extra}}}\n  - {{key: arbiter.surge.speed, values: [0.2, 0.3]}}\nevaluate: {{scenarios: [synthetic.yaml], seeds: 3, base_seed: 1}}\nobjective:\n  - {{metric: cost, stat: mean, weight: -1.0}}\n"
     );
     let s = parse(&text, "sod.yaml").unwrap_or_else(|e| panic!("{e}"));
-    LoadedSweep::from_parts(s, "sod.yaml".into(), "sod".into(), None, SendOnDelta.metrics()).unwrap_or_else(|e| panic!("{e}"))
+    LoadedSweep::from_parts(s, "sod.yaml".into(), "sod".into(), None, MetricNames { scenarios: SendOnDelta.metrics(), bags: &[] }).unwrap_or_else(|e| panic!("{e}"))
 }
 
 fn folder(name: &str) -> PathBuf {
