@@ -505,6 +505,27 @@ mod tests {
     }
 
     #[test]
+    fn a_window_replays_only_its_span_and_a_window_past_the_end_is_refused() {
+        let dir = temp("window");
+        let bag = write_bag(&dir, "left", 30f64.to_radians(), false);
+        let [x, y] = source_at(30f64.to_radians());
+        let text = format!("bags: [{{path: {}, start: 30.0, duration: 20.0}}, {{path: {}, start: 75.0}}]\ntruth: {{topic: /truth, source: [{x}, {y}], warmup: 6.0}}\n", bag.display(), bag.display());
+        let ev: Evaluate = serde_yaml::from_str(&text).expect("evaluate section");
+        let e = BagEvaluator::new(&ev, "", &dir.join("points")).expect("evaluator");
+        let params = dir.join("p.yaml");
+        std::fs::write(&params, BASE).expect("writes");
+        let r = e.replay(&params, &ev.bags[0], ev.truth.as_ref().and_then(|t| t.source.as_deref())).expect("replays");
+        assert_eq!(r.span, (T0 + 30 * 1_000_000_000, T0 + 50 * 1_000_000_000));
+        assert!(r.bearings.iter().all(|(t, _)| (r.span.0..=r.span.1).contains(t)) && !r.bearings.is_empty());
+        // The nodes start cold at the window's start: the warm-up leaves out their first onsets.
+        let m = e.metrics(&r, &ev.bags[0]).expect("scores");
+        assert!(m["bearing_error"] < 1.0 && m["bearing_coverage"] > 0.95, "{m:?}");
+        let past = e.replay(&params, &ev.bags[1], None).err().map(|e| format!("{e:#}")).unwrap_or_default();
+        assert!(past.contains("start 75.000 s is past its end (59.990 s)") && past.contains("left"), "{past}");
+        let _ = std::fs::remove_dir_all(&dir);
+    }
+
+    #[test]
     fn the_grid_scores_only_fresh_estimates_where_the_truth_is_known() {
         let s = 1_000_000_000;
         let mut truth = SourceTrack::default();

@@ -1,6 +1,7 @@
 //! The shipped bag sweep (config/sweeps/demo_bag.yaml) as its comments tell: `sillage check`
 //! accepts it before the bags exist, bags recorded by `sillage sim --record` make it run, and
-//! shards merged rank like one run. A broken bag key fails the check, naming the key.
+//! shards merged rank like one run; a sweep may mix a scenario and a bag. A broken bag key
+//! fails the check, naming the key.
 
 use std::path::{Path, PathBuf};
 use std::process::Command;
@@ -66,6 +67,31 @@ fn the_demo_bag_sweep_checks_runs_and_merges() {
     assert!(ok, "merge: {text}");
     let read = |d: &str| std::fs::read_to_string(dir.join(d).join("ranking.json")).expect("ranking.json");
     assert_eq!(read("out/merged"), read("out/whole"), "merged shards rank like one run");
+
+    // One sweep over a scenario and a bag: scenario metrics come from the episode, bag metrics
+    // from the replay, and the score adds both.
+    let mixed = "name: mixed\nbase_params: ../sim.yaml\ndesign: {kind: grid}\nparameters:\n  - {key: bearing_decoder.amplitude.saturation, values: [0.25, 1.0]}\nevaluate:\n  scenarios: [../scenarios/demo.yaml]\n  seeds: 1\n  time_limit: 20.0\n  bags: [{path: ../../out/sim-demo-0/bag, name: seed0}]\n  truth: {topic: /odom, scenario: ../scenarios/demo.yaml, warmup: 5.0}\nobjective:\n  - {metric: min_distance, stat: median, weight: -0.1}\n  - {metric: bearing_error, stat: mean, weight: -0.01}\n";
+    std::fs::write(dir.join("config/sweeps/mixed.yaml"), mixed).expect("writes");
+    let (ok, text) = sillage(&dir, &["tune", "config/sweeps/mixed.yaml", "--quiet", "--no-plots", "--out", "out/mixed"]);
+    assert!(ok, "mixed: {text}");
+    let results = std::fs::read_to_string(dir.join("out/mixed/results.jsonl")).expect("results");
+    let records: Vec<serde_json::Value> = results.lines().map(|l| serde_json::from_str(l).expect("json line")).collect();
+    assert_eq!(records.len(), 4, "2 points x (1 episode + 1 bag)");
+    for r in &records {
+        let m = &r["metrics"];
+        match r["case"].as_str() {
+            Some("demo#0") => assert!(m["min_distance"].is_f64() && m.get("bearing_error").is_none(), "{r}"),
+            Some("seed0") => assert!(m["bearing_error"].is_f64() && m.get("min_distance").is_none(), "{r}"),
+            other => panic!("unexpected case {other:?}"),
+        }
+    }
+    let ranked: serde_json::Value = serde_json::from_str(&read("out/mixed")).expect("ranking");
+    for p in ranked.as_array().expect("points") {
+        let terms = p["terms"].as_array().expect("terms");
+        assert!(terms.iter().all(|t| t["n"] == 1 && t["estimate"].is_f64()), "{p}");
+        let sum: f64 = terms.iter().map(|t| t["weight"].as_f64().unwrap_or(0.0) * t["estimate"].as_f64().unwrap_or(0.0)).sum();
+        assert!((p["score"].as_f64().unwrap_or(f64::NAN) - sum).abs() < 1e-12, "{p}");
+    }
 }
 
 #[test]
