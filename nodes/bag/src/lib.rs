@@ -20,6 +20,7 @@ pub mod error;
 pub mod fuzzing;
 pub mod info;
 pub mod json;
+pub mod mcap_check;
 mod mcap_out;
 pub mod mcap_read;
 pub mod metadata;

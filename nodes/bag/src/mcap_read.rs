@@ -8,6 +8,7 @@
 //! message reader reads the file front to back; a cut-off end is then a warning, not an error.
 
 use crate::error::{BagError, Location};
+use crate::mcap_check::{check_record, check_records};
 use crate::source::{Head, Source, TopicDecl};
 use mcap::records::{op, ChunkIndex};
 use mcap::sans_io::{LinearReadEvent, LinearReader, LinearReaderOptions, SummaryReadEvent, SummaryReader, SummaryReaderOptions};
@@ -135,9 +136,44 @@ fn decl_of(ch: &mcap::Channel<'_>) -> TopicDecl {
     }
 }
 
+/// Footer record and closing magic at the end of the file [bytes].
+const FOOTER_AND_MAGIC: u64 = 1 + 8 + 20 + 8;
+
+/// Checks the lengths inside the summary section (the footer says where it starts) before the
+/// mcap crate parses it: a corrupt length there would make the crate reserve up to 4 GiB.
+fn check_summary<R: Read + Seek>(file: &mut R, len: u64, limit: u64) -> Result<(), String> {
+    if len < 8 + FOOTER_AND_MAGIC {
+        return Ok(()); // too short for a footer: the summary reader says so
+    }
+    let footer_at = len - FOOTER_AND_MAGIC;
+    let mut footer = [0u8; 29];
+    file.seek(SeekFrom::Start(footer_at)).map_err(|e| e.to_string())?;
+    file.read_exact(&mut footer).map_err(|e| e.to_string())?;
+    if footer[0] != op::FOOTER {
+        return Ok(()); // no footer: the summary reader reports it
+    }
+    let mut start8 = [0u8; 8];
+    start8.copy_from_slice(&footer[9..17]);
+    let start = u64::from_le_bytes(start8);
+    if start == 0 {
+        return Ok(()); // no summary section
+    }
+    if start < 8 || start > footer_at {
+        return Err(format!("the footer at byte {footer_at} puts the summary at byte {start}, outside the file's {footer_at} bytes before it"));
+    }
+    if footer_at - start > limit {
+        return Err(format!("summary section at byte {start} is {} bytes, more than the {limit}-byte limit", footer_at - start));
+    }
+    let mut section = vec![0u8; (footer_at - start) as usize];
+    file.seek(SeekFrom::Start(start)).map_err(|e| e.to_string())?;
+    file.read_exact(&mut section).map_err(|e| e.to_string())?;
+    check_records(&section, start)
+}
+
 /// Reads the summary section; `Ok(None)` when the file has none or it cannot be read (the
 /// reason is returned for a warning).
 fn read_summary<R: Read + Seek>(file: &mut R, len: u64, limit: u64) -> Result<Option<mcap::Summary>, String> {
+    check_summary(file, len, limit)?;
     let mut reader =
         SummaryReader::new_with_options(SummaryReaderOptions::default().with_file_size(len).with_record_length_limit(limit as usize));
     while let Some(event) = reader.next_event() {
@@ -280,6 +316,7 @@ impl<R: Read + Seek> ChunkLoader<R> {
         let path = &self.path;
         let at = Location::Chunk(offset);
         let bad = |reason: String| mcap_err(path, at.clone(), reason);
+        check_record(op::CHUNK, body, offset + 9).map_err(&bad)?;
         let (header, data) = match mcap::read::parse_record(op::CHUNK, body) {
             Ok(mcap::records::Record::Chunk { header, data }) => (header, data),
             Ok(_) => return Err(bad("not a chunk record".into())),
@@ -340,6 +377,9 @@ impl<R: Read + Seek> ChunkLoader<R> {
                 return Err(bad(&format!("record of {len} bytes runs past the end of the chunk")));
             }
             let body = &buf[body_start..body_start + len as usize];
+            if opcode == op::SCHEMA || opcode == op::CHANNEL {
+                check_record(opcode, body, body_start as u64).map_err(|r| bad(&r))?;
+            }
             match opcode {
                 op::MESSAGE => {
                     if body.len() < 22 {
@@ -506,18 +546,21 @@ impl<R: Read + Seek> FileCtx<R> {
                             return Ok(true);
                         }
                     }
-                    op::SCHEMA | op::CHANNEL => match mcap::read::parse_record(opcode, data) {
-                        Ok(mcap::records::Record::Schema { header, data }) => {
-                            lin.schemas.insert(header.id, (header.name, header.encoding, String::from_utf8_lossy(&data).into_owned()));
+                    op::SCHEMA | op::CHANNEL => {
+                        check_record(opcode, data, self.offset_read).map_err(|r| mcap_err(&self.loader.path, at.clone(), r))?;
+                        match mcap::read::parse_record(opcode, data) {
+                            Ok(mcap::records::Record::Schema { header, data }) => {
+                                lin.schemas.insert(header.id, (header.name, header.encoding, String::from_utf8_lossy(&data).into_owned()));
+                            }
+                            Ok(mcap::records::Record::Channel(c)) => {
+                                let (type_name, schema_encoding, schema) = lin.schemas.get(&c.schema_id).cloned().unwrap_or_default();
+                                let qos = c.metadata.get("offered_qos_profiles").cloned().unwrap_or_default();
+                                self.channels.entry(c.id).or_insert(TopicDecl { name: c.topic, type_name, encoding: c.message_encoding, schema_encoding, schema, qos });
+                            }
+                            Ok(_) => {}
+                            Err(e) => return Err(mcap_err(&self.loader.path, at, e)),
                         }
-                        Ok(mcap::records::Record::Channel(c)) => {
-                            let (type_name, schema_encoding, schema) = lin.schemas.get(&c.schema_id).cloned().unwrap_or_default();
-                            let qos = c.metadata.get("offered_qos_profiles").cloned().unwrap_or_default();
-                            self.channels.entry(c.id).or_insert(TopicDecl { name: c.topic, type_name, encoding: c.message_encoding, schema_encoding, schema, qos });
-                        }
-                        Ok(_) => {}
-                        Err(e) => return Err(mcap_err(&self.loader.path, at, e)),
-                    },
+                    }
                     op::DATA_END | op::FOOTER => {
                         lin.done = true;
                         return Ok(false);
