@@ -134,12 +134,20 @@ pub(crate) struct Backend {
 impl Backend {
     /// Writes through `writer` on the caller's thread, or on a thread of its own when
     /// `background`.
-    pub(crate) fn new(path: &Path, writer: Mcap, background: bool) -> Backend {
+    pub(crate) fn new(path: &Path, writer: Mcap, background: bool) -> Result<Backend, BagError> {
         let out = McapOut { path: path.to_path_buf(), writer, schemas: Vec::new(), channels: Vec::new() };
-        let mode = if background {
-            let (tx, rx) = sync_channel::<Cmd>(IN_FLIGHT);
-            let (spare_tx, spare) = sync_channel::<Batch>(IN_FLIGHT + 1);
-            let worker = std::thread::spawn(move || {
+        let mode = if background { Backend::spawn(out)? } else { Mode::Inline(out) };
+        Ok(Backend { path: path.to_path_buf(), batch: Batch::default(), mode: Some(mode) })
+    }
+
+    /// Moves `out` to a writer thread of its own.
+    fn spawn(out: McapOut) -> Result<Mode, BagError> {
+        let path = out.path.clone();
+        let (tx, rx) = sync_channel::<Cmd>(IN_FLIGHT);
+        let (spare_tx, spare) = sync_channel::<Batch>(IN_FLIGHT + 1);
+        let worker = std::thread::Builder::new()
+            .name("bag-writer".into())
+            .spawn(move || {
                 let mut out = out;
                 while let Ok(cmd) = rx.recv() {
                     match cmd {
@@ -152,12 +160,9 @@ impl Backend {
                     }
                 }
                 Err(out.err("the bag writer was dropped before it finished"))
-            });
-            Mode::Thread { tx, spare, worker }
-        } else {
-            Mode::Inline(out)
-        };
-        Backend { path: path.to_path_buf(), batch: Batch::default(), mode: Some(mode) }
+            })
+            .map_err(|e| BagError::Write { path, reason: format!("cannot start the writer thread: {e}") })?;
+        Ok(Mode::Thread { tx, spare, worker })
     }
 
     fn gone(&self) -> BagError {

@@ -216,7 +216,7 @@ impl<R: Read + Seek> McapSource<R> {
         let chunks = ix.chunks.clone();
         let (tx, rx) = sync_channel(PREFETCH);
         let (spare_tx, spare_rx) = sync_channel::<Vec<u8>>(PREFETCH + 2);
-        std::thread::spawn(move || {
+        let reader = std::thread::Builder::new().name("mcap-prefetch".into()).spawn(move || {
             let mut raw = Vec::new();
             for ci in &chunks {
                 let buf = spare_rx.try_recv().unwrap_or_default();
@@ -227,7 +227,10 @@ impl<R: Read + Seek> McapSource<R> {
                 }
             }
         });
-        ix.feed = Feed::Thread { rx, spare_tx };
+        // Without a thread, chunks are read inline as before.
+        if reader.is_ok() {
+            ix.feed = Feed::Thread { rx, spare_tx };
+        }
         Ok(())
     }
 

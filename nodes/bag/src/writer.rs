@@ -112,7 +112,7 @@ impl BagWriter {
             .compression_threads(0)
             .create(BufWriter::with_capacity(1 << 16, f))
             .map_err(|e| BagError::Write { path: file.clone(), reason: e.to_string() })?;
-        let out = Backend::new(&file, w, opts.background);
+        let out = Backend::new(&file, w, opts.background)?;
         Ok(BagWriter {
             dir,
             file,
