@@ -6,8 +6,10 @@
 //! The bag: two MOX channels at 100 Hz on /chem, wind at 10 Hz, odometry at 50 Hz (576 000
 //! messages for an hour), zstd-chunked MCAP written by sillage-bag. Prints messages per second
 //! for the raw read path (records in log-time order, not decoded), the decoded read path
-//! (`Msg` values), and the replay through the default stack with and without writing the
-//! output bag, as bag time over wall time.
+//! (`Msg` values), and the replay through the default stack without the output bag, then
+//! writing it as `sillage replay` does (on the writer thread) with zstd, lz4 and no chunk
+//! compression, and once with zstd on the caller's thread; bag time over wall time, and the
+//! CPU time of the process (all threads) over the same span.
 
 use sillage_bag::replay::replay;
 use sillage_bag::{Bag, BagWriter, QosProfile, ReadOptions, WriterOptions};
@@ -62,6 +64,16 @@ fn generate(dir: &std::path::Path, minutes: f64) -> u64 {
     w.finish().expect("finishes").metadata.message_count
 }
 
+/// User + system CPU time of this process, all threads [s] (from /proc/self/stat; 0 elsewhere).
+fn cpu_seconds() -> f64 {
+    let stat = std::fs::read_to_string("/proc/self/stat").unwrap_or_default();
+    // Fields after the command name (which is in parentheses): utime and stime are 14 and 15.
+    let rest = stat.rsplit_once(')').map_or("", |(_, r)| r);
+    let f: Vec<&str> = rest.split_whitespace().collect();
+    let ticks = |i: usize| f.get(i).and_then(|v| v.parse::<f64>().ok()).unwrap_or(0.0);
+    (ticks(11) + ticks(12)) / 100.0 // USER_HZ is 100 on Linux (common practice)
+}
+
 fn main() {
     let args: Vec<String> = std::env::args().collect();
     let minutes = args.iter().position(|a| a == "--minutes").and_then(|i| args.get(i + 1)).and_then(|v| v.parse().ok()).unwrap_or(60.0);
@@ -108,8 +120,17 @@ fn main() {
     println!("read (decoded to Msg):              {c} messages in {s:.3} s = {:.2} M messages/s", c as f64 / s / 1e6);
 
     let bag_s = minutes * 60.0;
-    let replays: &[bool] = if args.iter().any(|a| a == "--read-only") { &[] } else { &[false, true] };
-    for &write in replays {
+    use sillage_bag::Compression::{Lz4, Zstd};
+    // (label, output bag: compression, on the writer thread)
+    let all: &[(&str, Option<(Option<sillage_bag::Compression>, bool)>)] = &[
+        ("", None),
+        (" writing the output bag (zstd, writer thread)", Some((Some(Zstd), true))),
+        (" writing the output bag (lz4, writer thread)", Some((Some(Lz4), true))),
+        (" writing the output bag (no compression, writer thread)", Some((None, true))),
+        (" writing the output bag (zstd, one thread)", Some((Some(Zstd), false))),
+    ];
+    let replays = if args.iter().any(|a| a == "--read-only") { &all[..0] } else { all };
+    for &(label, write) in replays {
         let cfg = sillage_stack::StackConfig::default();
         let mut ex = sillage_stack::build(&cfg).expect("stack");
         let inputs = sillage_bag::replay::Inputs {
@@ -122,7 +143,9 @@ fn main() {
             .collect(),
             outputs: Default::default(),
         };
-        let mut out = if write { Some(BagWriter::create(root.join("out"), WriterOptions { overwrite: true, ..Default::default() }).expect("out")) } else { None };
+        let mut out = write.map(|(compression, background)| {
+            BagWriter::create(root.join("out"), WriterOptions { overwrite: true, compression, background, ..Default::default() }).expect("out")
+        });
         let mut records = 0u64;
         let q = [QosProfile::from(Qos::Reliable)];
         let mut rec = |r: &sillage_core::executor::Record| {
@@ -133,16 +156,17 @@ fn main() {
             }
         };
         let t = Instant::now();
+        let cpu0 = cpu_seconds();
         let mut msgs = bag.messages(&ReadOptions::default()).expect("reads");
         let o = replay(&mut ex, &mut msgs, &inputs, &mut rec, &mut |_| {});
         if let Some(w) = out.take() {
             w.finish().expect("finishes");
         }
         let wall = t.elapsed().as_secs_f64();
+        let cpu = cpu_seconds() - cpu0;
         assert!(o.error.is_none(), "{:?}", o.error);
         println!(
-            "replay through the default stack{}: {} inputs, {records} records, {wall:.2} s wall, real-time factor {:.0}",
-            if write { " writing the output bag" } else { "" },
+            "replay through the default stack{label}: {} inputs, {records} records, {wall:.3} s wall (real-time factor {:.0}), {cpu:.3} s cpu",
             o.injected,
             bag_s / wall
         );
