@@ -1,24 +1,7 @@
 //! Decoding by a function chosen once per topic: the reader looks the type up when it first
 //! meets a topic, then calls the type's own CDR decoder for every message of it.
 
-use sillage_core::cdr::{self, CdrError};
-use sillage_core::msg::*;
-use sillage_core::ros_type::RosMessage;
-use sillage_core::Msg;
-
-/// Decodes one CDR buffer into a [`Msg`].
-pub type DecodeFn = fn(&[u8]) -> Result<Msg, CdrError>;
-
-macro_rules! table {
-    ($($v:ident),*) => {
-        /// Every topic type of the vocabulary with its decoder.
-        pub static DECODERS: &[(&str, DecodeFn)] = &[ $( (<$v as RosMessage>::TYPE_NAME, |b| cdr::decode::<$v>(b).map(Msg::from)), )* ];
-    };
-}
-table!(
-    ChemSample, OdorEventArray, OdorBearing, PlumeFeatures, SearchState, Vector3Stamped, Odometry, Bool, Empty, LaserScan, Twist,
-    TwistStamped, PointStamped, DiagnosticArray, Clock
-);
+pub use sillage_core::any::{DecodeFn, DECODERS};
 
 /// The canonical type name and decoder of a topic type (`pkg/msg/Type` or `pkg/Type`).
 pub fn decoder(type_name: &str) -> Option<(&'static str, DecodeFn)> {
@@ -28,6 +11,8 @@ pub fn decoder(type_name: &str) -> Option<(&'static str, DecodeFn)> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use sillage_core::msg::Bool;
+    use sillage_core::Msg;
 
     #[test]
     fn the_table_covers_the_vocabulary_and_agrees_with_msg_decode() {

@@ -25,6 +25,11 @@ fn bench(c: &mut Criterion) {
     let odom: Msg = Odometry::default().into();
     let ob = odom.encode().expect("encodes");
     c.bench_function("cdr_decode_odometry", |b| b.iter(|| Msg::decode("nav_msgs/msg/Odometry", black_box(&ob))));
+    c.bench_function("cdr_encode_odometry", |b| b.iter(|| odom.encode_into(black_box(&mut buf))));
+    // The generic serde path, which Msg bypasses for Odometry (same bytes).
+    let Msg::Odometry(plain) = &odom else { return };
+    c.bench_function("cdr_decode_odometry_generic", |b| b.iter(|| sillage_core::cdr::decode::<Odometry>(black_box(&ob))));
+    c.bench_function("cdr_encode_odometry_generic", |b| b.iter(|| sillage_core::cdr::encode_into::<Odometry>(plain, black_box(&mut buf))));
 }
 
 criterion_group!(benches, bench);

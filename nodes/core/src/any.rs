@@ -6,8 +6,27 @@
 //! executor's queues: the enum is as large as its largest variant.
 
 use crate::cdr::{self, CdrError};
+use crate::cdr_odometry;
 use crate::msg::*;
 use crate::ros_type::RosMessage;
+
+/// Decodes one CDR buffer into a [`Msg`].
+pub type DecodeFn = fn(&[u8]) -> Result<Msg, CdrError>;
+
+/// The decoder of a variant: the direct path for Odometry, the generic codec otherwise.
+macro_rules! decoder {
+    (Odometry) => { |b| cdr_odometry::decode(b).map(Msg::Odometry) };
+    ($v:ident) => { |b| cdr::decode::<$v>(b).map(Msg::from) };
+}
+
+/// The encoder of a variant: the direct path for Odometry, the generic codec otherwise.
+macro_rules! encoder {
+    (Odometry, $m:expr, $out:expr) => {{
+        cdr_odometry::append($m, $out);
+        Ok(())
+    }};
+    ($v:ident, $m:expr, $out:expr) => { cdr::append_to::<$v>($m, $out) };
+}
 
 /// The payload type of a variant: the message itself, or boxed.
 macro_rules! payload {
@@ -37,21 +56,31 @@ macro_rules! vocabulary {
 
             /// Encodes the message as a CDR buffer with header into `out`.
             pub fn encode_into(&self, out: &mut Vec<u8>) -> Result<(), CdrError> {
-                match self { $( Msg::$variant(m) => cdr::encode_into::<$variant>(m, out), )* }
+                out.clear();
+                self.append_to(out)
             }
 
             /// Appends the message's CDR buffer with header to `out` (kept as it is).
             pub fn append_to(&self, out: &mut Vec<u8>) -> Result<(), CdrError> {
-                match self { $( Msg::$variant(m) => cdr::append_to::<$variant>(m, out), )* }
+                match self { $( Msg::$variant(m) => encoder!($variant, m, out), )* }
             }
 
             /// Decodes a CDR buffer of the named type.
             pub fn decode(type_name: &str, buf: &[u8]) -> Result<Msg, CdrError> {
-                $( if same_type(type_name, <$variant as RosMessage>::TYPE_NAME) {
-                    return cdr::decode::<$variant>(buf).map(Msg::from);
-                } )*
-                Err(CdrError::UnknownType(type_name.to_string()))
+                match DECODERS.iter().find(|(n, _)| same_type(type_name, n)) {
+                    Some((_, f)) => f(buf),
+                    None => Err(CdrError::UnknownType(type_name.to_string())),
+                }
             }
+        }
+
+        /// Every message type of the vocabulary with its decoder (what bag readers pick once
+        /// per topic).
+        pub static DECODERS: &[(&str, DecodeFn)] = &[
+            $( (<$variant as RosMessage>::TYPE_NAME, decoder!($variant)), )*
+        ];
+
+        impl Msg {
 
             /// Whether the named type is part of the vocabulary.
             pub fn is_known_type(type_name: &str) -> bool {
@@ -116,10 +145,8 @@ pub fn same_type(type_name: &str, canonical: &str) -> bool {
     if type_name == canonical {
         return true;
     }
-    match (short_parts(type_name), canonical.split_once("/msg/")) {
-        (Some((p, t)), Some((cp, ct))) => p == cp && t == ct,
-        _ => false,
-    }
+    let Some((p, t)) = short_parts(type_name) else { return false };
+    canonical.strip_prefix(p).and_then(|r| r.strip_prefix("/msg/")) == Some(t)
 }
 
 impl Msg {

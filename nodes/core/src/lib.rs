@@ -2,7 +2,8 @@
 //!
 //! - [`msg`]: Rust mirrors of the `sillage_msgs` messages and of the standard ROS 2 messages the
 //!   node graph uses, each with its ROS type name and `ros2msg` definition ([`RosMessage`]);
-//! - [`cdr`]: the one ROS 2 CDR codec (XCDR1, 4-byte encapsulation header);
+//! - [`cdr`]: the one ROS 2 CDR codec (XCDR1, 4-byte encapsulation header), with a direct
+//!   path for Odometry ([`cdr_odometry`]);
 //! - [`any`]: [`Msg`], the closed set of messages that travel between nodes;
 //! - [`node`]: the [`NodeCore`] trait every pure node core implements;
 //! - [`executor`]: the deterministic virtual-time in-process executor;
@@ -11,6 +12,7 @@
 
 pub mod any;
 pub mod cdr;
+pub mod cdr_odometry;
 pub mod executor;
 pub mod msg;
 pub mod node;
