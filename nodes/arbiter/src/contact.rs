@@ -7,8 +7,17 @@
 //! - a *feature hit* is a features message with `bout_rate >= bout_rate_enter` or
 //!   `intermittency >= intermittency_enter`; while in contact the lower `*_exit` thresholds
 //!   apply instead (hysteresis: the windowed features decay slowly after the plume is left);
-//! - every hit refreshes the last contact time and the contact point (the robot's odom position
-//!   at that moment); the robot is in contact until `loss_timeout` passes without a hit.
+//!   a feature hit keeps a contact going only within `feature_hold` seconds of the contact's
+//!   last event hit (or of its start, if later), because windowed features outlast the plume
+//!   by their window: without that limit a robot surging upwind overshoots the source by up
+//!   to a window's worth of travel. A feature hit refused by that limit disarms feature hits
+//!   until the features have fallen below the exit thresholds, so the same stale window cannot
+//!   start a new contact right after the loss;
+//! - every hit refreshes the last contact time; the robot is in contact until `loss_timeout`
+//!   passes without a hit;
+//! - the contact point is the robot's odom position at the last event hit (at the last feature
+//!   hit only while no event hit has come yet): windowed features outlast the plume by their
+//!   window, so where they still pass is not where the odor was.
 //!
 //! Times are the node's clock at arrival [ns].
 
@@ -63,15 +72,30 @@ pub struct ContactDetector {
     recent: VecDeque<Nanos>,
     last_hit: Option<Nanos>,
     point: Option<Vec2>,
+    point_from_events: bool,
     hits: u64,
     cause: Option<HitCause>,
+    started: Option<Nanos>,
+    last_event_hit: Option<Nanos>,
+    features_armed: bool,
 }
 
 impl ContactDetector {
     /// A detector with no contact yet.
     pub fn new(p: ContactParams) -> Self {
         let cap = p.hits_required as usize;
-        ContactDetector { p, recent: VecDeque::with_capacity(cap), last_hit: None, point: None, hits: 0, cause: None }
+        ContactDetector {
+            p,
+            recent: VecDeque::with_capacity(cap),
+            last_hit: None,
+            point: None,
+            point_from_events: false,
+            hits: 0,
+            cause: None,
+            started: None,
+            last_event_hit: None,
+            features_armed: true,
+        }
     }
 
     /// Replaces the thresholds, keeping the state.
@@ -83,9 +107,17 @@ impl ContactDetector {
     }
 
     fn hit(&mut self, now: Nanos, at: Option<Vec2>, cause: HitCause) {
+        if !self.in_contact(now) {
+            self.started = Some(now);
+        }
         self.last_hit = Some(now);
-        if at.is_some() {
+        let by_events = cause == HitCause::Events;
+        if by_events {
+            self.last_event_hit = Some(now);
+        }
+        if at.is_some() && (by_events || !self.point_from_events) {
             self.point = at;
+            self.point_from_events |= by_events;
         }
         self.hits += 1;
         self.cause = Some(cause);
@@ -113,16 +145,33 @@ impl ContactDetector {
 
     /// Features arrived at `now`, the robot being at `at`.
     pub fn on_features(&mut self, now: Nanos, f: &FeaturesObs, at: Option<Vec2>) {
-        let (rate, inter) = if self.in_contact(now) {
+        let in_contact = self.in_contact(now);
+        let (rate, inter) = if in_contact {
             (self.p.bout_rate_exit, self.p.intermittency_exit)
         } else {
             (self.p.bout_rate_enter, self.p.intermittency_enter)
         };
         // A zero threshold would make every message a hit; only positive evidence counts.
-        if f.bout_rate > 0.0 && f.bout_rate >= rate {
-            self.hit(now, at, HitCause::BoutRate);
+        let cause = if f.bout_rate > 0.0 && f.bout_rate >= rate {
+            HitCause::BoutRate
         } else if f.intermittency > 0.0 && f.intermittency >= inter {
-            self.hit(now, at, HitCause::Intermittency);
+            HitCause::Intermittency
+        } else {
+            if !(f.bout_rate >= self.p.bout_rate_exit && f.bout_rate > 0.0) && !(f.intermittency >= self.p.intermittency_exit && f.intermittency > 0.0) {
+                self.features_armed = true;
+            }
+            return;
+        };
+        let allowed = if in_contact {
+            let since = self.last_event_hit.max(self.started).unwrap_or(now);
+            now.saturating_sub(since) <= nanos(self.p.feature_hold)
+        } else {
+            self.features_armed
+        };
+        if allowed {
+            self.hit(now, at, cause);
+        } else {
+            self.features_armed = false;
         }
     }
 
@@ -181,5 +230,45 @@ mod tests {
         assert_eq!(c.view(2 * SECOND).cause, Some(HitCause::Intermittency));
         c.on_features(3 * SECOND, &feats(0.0, 0.0), None);
         assert_eq!(c.view(3 * SECOND).age, Some(1.0), "no evidence: no refresh");
+    }
+
+    #[test]
+    fn the_contact_point_follows_event_hits_once_there_are_any() {
+        let mut c = ContactDetector::new(ContactParams::default());
+        c.on_features(0, &feats(1.0, 0.5), Some(Vec2::new(9.0, 0.0)));
+        assert_eq!(c.view(0).point, Some(Vec2::new(9.0, 0.0)), "features place it while there is nothing better");
+        c.on_events(SECOND, EventsObs { rising: 1 }, Some(Vec2::new(8.0, 0.0)));
+        c.on_features(2 * SECOND, &feats(1.0, 0.5), Some(Vec2::new(7.0, 0.0)));
+        let v = c.view(2 * SECOND);
+        assert_eq!((v.point, v.cause), (Some(Vec2::new(8.0, 0.0)), Some(HitCause::BoutRate)), "features refresh the contact, not the point");
+        c.on_events(3 * SECOND, EventsObs { rising: 1 }, Some(Vec2::new(6.5, 0.0)));
+        assert_eq!(c.view(3 * SECOND).point, Some(Vec2::new(6.5, 0.0)));
+    }
+
+    #[test]
+    fn stale_features_hold_a_contact_only_briefly_and_cannot_restart_it() {
+        let p = ContactParams { feature_hold: 3.0, loss_timeout: 2.0, ..Default::default() };
+        let mut c = ContactDetector::new(p);
+        c.on_events(0, EventsObs { rising: 1 }, Some(Vec2::new(5.0, 0.0)));
+        // Features still pass once the events have stopped (the window remembers the plume).
+        for k in 1..=10 {
+            c.on_features(k * SECOND, &feats(1.0, 0.5), Some(Vec2::new(5.0 - 0.3 * k as f64, 0.0)));
+        }
+        let v = c.view(10 * SECOND);
+        assert!(!v.in_contact, "held 3 s past the last event, then lost 2 s later");
+        assert_eq!(v.age, Some(7.0));
+        assert_eq!(v.point, Some(Vec2::new(5.0, 0.0)));
+        c.on_features(11 * SECOND, &feats(1.0, 0.5), None);
+        assert!(!c.in_contact(11 * SECOND), "a stale window cannot start a new contact");
+        c.on_features(12 * SECOND, &feats(0.05, 0.01), None);
+        c.on_features(13 * SECOND, &feats(0.5, 0.2), None);
+        assert!(c.in_contact(13 * SECOND), "re-armed once the features fell below the exit thresholds");
+        // A contact the features started lasts feature_hold without events, then ends.
+        for k in 14..=16 {
+            c.on_features(k * SECOND, &feats(0.5, 0.2), None);
+        }
+        assert_eq!(c.view(16 * SECOND).age, Some(0.0), "3 s after its start: still held");
+        c.on_features(17 * SECOND, &feats(0.5, 0.2), None);
+        assert_eq!(c.view(17 * SECOND).age, Some(1.0), "4 s after its start: refused");
     }
 }

@@ -129,7 +129,7 @@ pub struct FeaturesObs {
 /// Counts of one OdorEventArray.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct EventsObs {
-    /// Rising events (odor onsets).
+    /// Rising events (odor onsets) that rose above the minimum level.
     pub rising: u32,
 }
 
@@ -232,12 +232,13 @@ pub fn features(m: &PlumeFeatures) -> Result<FeaturesObs, ArbiterError> {
     })
 }
 
-/// Checks an event array.
-pub fn events(m: &OdorEventArray) -> Result<EventsObs, ArbiterError> {
+/// Checks an event array and counts its rising events above `min_level` (`contact.min_event_level`).
+pub fn events(m: &OdorEventArray, min_level: f64) -> Result<EventsObs, ArbiterError> {
     let mut rising = 0u32;
     for e in &m.events {
         match e.polarity {
-            OdorEvent::RISING => rising = rising.saturating_add(1),
+            OdorEvent::RISING if e.level > min_level => rising = rising.saturating_add(1),
+            OdorEvent::RISING => {}
             OdorEvent::FALLING => {}
             p => return Err(ArbiterError::field(Input::OdorEvents.topic(), "events[].polarity", p, "not +1 or -1")),
         }

@@ -13,7 +13,8 @@
 //! - [`inputs`]: input order and the checks of every message; [`stats`]: their counters;
 //! - [`watchdog`]: input freshness; [`wind`]: wind in odom; [`contact`]: the contact decision;
 //! - [`modes`]: modes, precedence and transitions; [`strategy`]: the behaviour strategies and
-//!   how to add one; [`declare`]: source declaration;
+//!   how to add one; [`declare`]: source declaration from the plume features;
+//!   [`front`]: source declaration where the plume keeps ending upwind;
 //! - [`drive`]: from motion intent to a body command; [`guard`]: caps, rate limits, e-stop
 //!   latch, obstacle stop, geofence;
 //! - [`node`]: the [`NodeCore`](sillage_core::NodeCore) implementation; [`diagnostics`].
@@ -30,6 +31,7 @@ pub mod declare;
 pub mod diagnostics;
 pub mod drive;
 pub mod error;
+pub mod front;
 pub mod geometry;
 pub mod guard;
 pub mod inputs;

@@ -18,6 +18,7 @@
 
 use crate::contact::ContactDetector;
 use crate::declare::Declarer;
+use crate::front::FrontTracker;
 use crate::drive::{Cmd, Drive, Motion};
 use crate::error::ArbiterError;
 use crate::geometry::{wrap_angle, Vec2};
@@ -75,6 +76,8 @@ pub struct Arbiter {
     wind: WindEstimator,
     pub(crate) contact: ContactDetector,
     declarer: Declarer,
+    front: FrontTracker,
+    was_in_contact: bool,
     pub(crate) modes: ModeMachine,
     odom: Option<OdomObs>,
     bearing: Option<(BearingObs, Option<f64>)>,
@@ -114,6 +117,8 @@ impl Arbiter {
             wind: WindEstimator::new(params.wind.clone()),
             contact: ContactDetector::new(params.contact.clone()),
             declarer: Declarer::new(params.declare.clone()),
+            front: FrontTracker::new(params.declare.front.clone()),
+            was_in_contact: false,
             modes: ModeMachine::default(),
             odom: None,
             bearing: None,
@@ -197,8 +202,7 @@ impl Arbiter {
             self.watchdog.reset();
             self.stamps.reset();
             self.wind.reset();
-            self.contact.reset();
-            self.declarer.reset();
+            self.forget_evidence();
             self.strategy.reset();
             self.last_state_pub = None;
         }
@@ -216,6 +220,14 @@ impl Arbiter {
                 }
             }
         }
+    }
+
+    /// Forgets every contact and all declaration evidence (search restart, clock jump).
+    fn forget_evidence(&mut self) {
+        self.contact.reset();
+        self.declarer.reset();
+        self.front.reset();
+        self.was_in_contact = false;
     }
 
     fn position(&self) -> Option<Vec2> {
@@ -301,8 +313,7 @@ impl Arbiter {
             ResetOutcome::NotLatched => {
                 if self.declared.take().is_some() {
                     self.strategy.reset();
-                    self.contact.reset();
-                    self.declarer.reset();
+                    self.forget_evidence();
                     self.note = Some("search restarted by e_stop_reset");
                 }
             }
@@ -358,9 +369,15 @@ impl Arbiter {
             } else {
                 let ctx = self.context(now, &odom);
                 let decision = self.strategy.step(&ctx);
-                if let Some(reason) = self.declarer.ready(now).filter(|_| ctx.contact.in_contact) {
-                    let upwind = ctx.wind.upwind.or(ctx.wind.last_upwind);
-                    let estimate = self.declarer.estimate(&odom.pose, self.last_bearing_odom, upwind);
+                let upwind = ctx.wind.upwind.or(ctx.wind.last_upwind);
+                if self.was_in_contact && !ctx.contact.in_contact {
+                    self.front.on_loss(upwind);
+                }
+                self.was_in_contact = ctx.contact.in_contact;
+                let by_features = self.declarer.ready(now).filter(|_| ctx.contact.in_contact).map(|reason| {
+                    (self.declarer.estimate(&odom.pose, self.last_bearing_odom, upwind), reason)
+                });
+                if let Some((estimate, reason)) = by_features.or_else(|| self.front.ready()) {
                     self.declared = Some(Declared { at: now, estimate });
                     self.modes.enter(now, Mode::Declared, reason);
                     let p = PointStamped { header: Header::new(now, &self.params.frames.odom), point: Point { x: estimate.x, y: estimate.y, z: 0.0 } };
@@ -408,6 +425,7 @@ impl Arbiter {
         }
         if next.declare != self.params.declare {
             self.declarer.set_params(next.declare.clone());
+            self.front.set_params(next.declare.front.clone());
         }
         self.drive = Drive { p: next.drive.clone(), base: next.base };
         self.guard.set_params(&next);
@@ -465,9 +483,13 @@ impl NodeCore for Arbiter {
                 });
             }
             (Some(Input::OdorEvents), Msg::OdorEventArray(m)) => {
-                self.accept(now, Input::OdorEvents, &m.header.stamp, inputs::events(m), |s, e| {
+                self.accept(now, Input::OdorEvents, &m.header.stamp, inputs::events(m, self.params.contact.min_event_level), |s, e| {
                     let at = s.position();
+                    let before = s.contact.view(now).hits;
                     s.contact.on_events(now, e, at);
+                    if let Some(at) = at.filter(|_| s.contact.view(now).hits > before) {
+                        s.front.on_event_hit(at);
+                    }
                 });
             }
             (Some(Input::Wind), Msg::Vector3Stamped(m)) => {

@@ -110,6 +110,10 @@ pub struct ContactParams {
     pub hits_required: u32,
     /// Window for counting rising events [s].
     pub hit_window: f64,
+    /// A rising event counts only if it rises above this level [conditioned units, 0 = the
+    /// channel's baseline]: a rise that ends at or below the baseline is the recovery of a
+    /// signal that had dipped under it (baseline tracking after a strong hit), not odor.
+    pub min_event_level: f64,
     /// Bout rate that starts a contact [Hz].
     pub bout_rate_enter: f64,
     /// Bout rate that keeps a contact going [Hz] (<= `bout_rate_enter`).
@@ -120,6 +124,9 @@ pub struct ContactParams {
     pub intermittency_exit: f64,
     /// Contact is lost when no evidence came for this long [s].
     pub loss_timeout: f64,
+    /// Feature hits keep a contact going only this long after its last event hit (or its
+    /// start) [s]: windowed features outlast the plume ([`crate::contact`]).
+    pub feature_hold: f64,
 }
 
 impl Default for ContactParams {
@@ -127,11 +134,13 @@ impl Default for ContactParams {
         ContactParams {
             hits_required: 1,
             hit_window: 1.0,
+            min_event_level: 0.0,
             bout_rate_enter: 0.3,
             bout_rate_exit: 0.1,
             intermittency_enter: 0.1,
             intermittency_exit: 0.03,
             loss_timeout: 2.0,
+            feature_hold: 3.0,
         }
     }
 }
@@ -285,6 +294,30 @@ pub struct DeclareParams {
     pub min_intermittency: f64,
     /// The evidence must hold, in contact, on every features message for this long [s].
     pub dwell: f64,
+    /// The second rule: where the plume keeps ending upwind ([`crate::front`]).
+    pub front: FrontParams,
+}
+
+/// Plume-front declaration ([`crate::front`]).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct FrontParams {
+    /// Declare by this rule at all.
+    pub enabled: bool,
+    /// Rising-event hits a contact period needs for its front to count (1..=1000).
+    pub min_hits: u32,
+    /// A front further upwind than the best one by more than this is progress [m].
+    pub advance: f64,
+    /// A front within this distance of the best one that does not advance it is a stall [m].
+    pub radius: f64,
+    /// Stalls needed to declare (1..=100).
+    pub min_stalls: u32,
+}
+
+impl Default for FrontParams {
+    fn default() -> Self {
+        FrontParams { enabled: true, min_hits: 2, advance: 0.3, radius: 0.6, min_stalls: 2 }
+    }
 }
 
 impl Default for DeclareParams {
@@ -297,6 +330,7 @@ impl Default for DeclareParams {
             min_bout_rate: 1.0,
             min_intermittency: 0.3,
             dwell: 3.0,
+            front: FrontParams::default(),
         }
     }
 }
@@ -530,6 +564,7 @@ impl NodeParams for Params {
         let c = &self.contact;
         ensure((1..=64).contains(&c.hits_required), "contact.hits_required", format!("must be in 1..=64, got {}", c.hits_required))?;
         positive(c.hit_window, "contact.hit_window", "s")?;
+        ensure(c.min_event_level.is_finite(), "contact.min_event_level", format!("must be finite, got {}", c.min_event_level))?;
         non_negative(c.bout_rate_enter, "contact.bout_rate_enter", "Hz")?;
         non_negative(c.bout_rate_exit, "contact.bout_rate_exit", "Hz")?;
         ordered(c.bout_rate_exit, c.bout_rate_enter, "contact.bout_rate_exit", "contact.bout_rate_enter")?;
@@ -537,6 +572,7 @@ impl NodeParams for Params {
         within(c.intermittency_exit, 0.0, 1.0, "contact.intermittency_exit")?;
         ordered(c.intermittency_exit, c.intermittency_enter, "contact.intermittency_exit", "contact.intermittency_enter")?;
         positive(c.loss_timeout, "contact.loss_timeout", "s")?;
+        non_negative(c.feature_hold, "contact.feature_hold", "s")?;
 
         positive(self.drive.heading_gain, "drive.heading_gain", "1/s")?;
         ensure(
@@ -593,6 +629,11 @@ impl NodeParams for Params {
         non_negative(d.min_bout_rate, "declare.min_bout_rate", "Hz")?;
         within(d.min_intermittency, 0.0, 1.0, "declare.min_intermittency")?;
         non_negative(d.dwell, "declare.dwell", "s")?;
+        let f = &d.front;
+        ensure((1..=1000).contains(&f.min_hits), "declare.front.min_hits", format!("must be in 1..=1000, got {}", f.min_hits))?;
+        non_negative(f.advance, "declare.front.advance", "m")?;
+        positive(f.radius, "declare.front.radius", "m")?;
+        ensure((1..=100).contains(&f.min_stalls), "declare.front.min_stalls", format!("must be in 1..=100, got {}", f.min_stalls))?;
 
         let g = &self.guard;
         non_negative(g.max_linear, "guard.max_linear", "m/s")?;

@@ -106,7 +106,8 @@ impl NodeCore for Echo {
 
 fn placed(make: fn() -> Box<dyn NodeCore>, ns: &str, remaps: &[(&str, &str)]) -> PlacedNode {
     let name = make().name().to_string();
-    let spec = NodeSpec::new(&name, Arc::new(move |_: &serde_yaml::Value, _: &str, _: &str| Ok(make())));
+    let defaults = make().params_yaml();
+    let spec = NodeSpec::new(&name, Arc::new(move |_: &serde_yaml::Value, _: &str, _: &str| Ok(make())), defaults);
     let placement = Placement {
         namespace: ns.into(),
         name: None,
