@@ -333,7 +333,7 @@ fn a_forward_clock_jump_halts_on_the_gap_and_recovers() {
 }
 
 #[test]
-fn a_backward_clock_jump_restarts_the_stamp_orders_and_the_encoder() {
+fn a_backward_clock_jump_restarts_the_stamp_orders_the_encoder_and_the_plume_estimator() {
     let (st, t0) = demo();
     let at = t0 + 30 * S;
     let back = 10 * S;
@@ -349,16 +349,13 @@ fn a_backward_clock_jump_restarts_the_stamp_orders_and_the_encoder() {
     for topic in ["odom", "wind"] {
         assert_eq!(counter(&inputs_counter(&r, topic), "restarts "), 1, "{topic}");
     }
-    // The plume estimator drops samples stamped at or before its last accepted one (its
-    // documented rule; unlike the encoder it does not restart), so it skips the replayed 10 s
-    // and takes samples again once the stamps pass the old last one.
-    let chem = |m: &&Input| m.topic == "/chem";
-    let last_before = orig.iter().filter(chem).filter(|m| m.at < at).filter_map(|m| m.msg.header_stamp()).max().expect("chem before the jump");
-    let replayed = orig.iter().filter(chem).filter(|m| m.at >= at).filter_map(|m| m.msg.header_stamp()).filter(|t| t - back <= last_before).count();
-    let total = orig.iter().filter(chem).count();
+    // The plume estimator restarts too (a 10 s step back is more than its 1 s
+    // `input.backward_reset`) and takes every sample: none is dropped as out of order.
+    let total = orig.iter().filter(|m| m.topic == "/chem").count();
     let (_, pin) = r.diagnostics("plume_estimator: input").into_iter().last().expect("plume diagnostics");
-    assert_eq!(diag_value(pin, "out_of_order"), Some(replayed.to_string().as_str()));
-    assert_eq!(diag_value(pin, "accepted"), Some((total - replayed).to_string().as_str()));
+    assert_eq!(diag_value(pin, "backward_resets"), Some("1"));
+    assert_eq!(diag_value(pin, "out_of_order"), Some("0"));
+    assert_eq!(diag_value(pin, "accepted"), Some(total.to_string().as_str()));
     // The stream now ends 10 s earlier (at about 50 s): no halt until then.
     let end = st.last().map(|m| m.at).expect("inputs");
     let halts = not_halted_between(&r, t0 + 3 * S, end);
@@ -367,15 +364,11 @@ fn a_backward_clock_jump_restarts_the_stamp_orders_and_the_encoder() {
 
 
 #[test]
-#[ignore = "bug in sillage-plume-estimator: after a bag loop or restarted simulation (stamps jump back, \
-            arrivals go on) every chem sample is dropped as out of order, for good; the encoder restarts instead"]
 fn a_bag_loop_keeps_the_plume_estimator_fed() {
-    // The arbiter documents "a restarted simulation or bag loop" as a case it handles, and the
-    // encoder restarts on a step back of more than `backward_reset`; the plume estimator only
-    // drops samples "at or before the last accepted one" (nodes/plume_estimator/src/node.rs,
-    // step 3), so once the stamps have jumped back it drops every sample until they pass the
-    // old maximum, which in a loop they never do: its input diagnostic turns STALE ("no sample
-    // for N s") while samples arrive at 50 Hz, and plume_features stays NaN.
+    // The arbiter documents "a restarted simulation or bag loop" as a case it handles; the
+    // encoder and the plume estimator restart on a step back of more than their
+    // `backward_reset` (nodes/plume_estimator/src/node.rs, step 3), so after the loop the
+    // features are estimated again from the looped samples.
     let (st, t0) = demo();
     let looped = bag_loop(&st, t0 + 30 * S);
     let r = go(&looped);
@@ -387,4 +380,5 @@ fn a_bag_loop_keeps_the_plume_estimator_fed() {
     let known_again = r.on("/plume_features").filter(|m| m.stamp > t0 + 50 * S).any(|m| matches!(&m.msg, Msg::PlumeFeatures(f) if f.bout_rate.is_finite()));
     let (_, pin) = r.diagnostics("plume_estimator: input").into_iter().last().expect("plume diagnostics");
     assert!(known_again, "plume_features still NaN 20 s after the loop; plume_estimator: input says '{}' (out_of_order {:?})", pin.message, diag_value(pin, "out_of_order"));
+    assert_eq!(diag_value(pin, "backward_resets"), Some("1"), "the plume estimator restarts at the loop");
 }

@@ -125,6 +125,7 @@ fn input(n: &PlumeEstimator, now: Nanos, out: &mut Vec<DiagnosticStatus>) {
         ("accepted", c.accepted.to_string()),
         ("stale", c.stale.to_string()),
         ("out_of_order", c.out_of_order.to_string()),
+        ("backward_resets", c.backward_resets.to_string()),
         ("malformed", c.malformed.to_string()),
         ("bad_values", c.bad_values.to_string()),
         ("rate_probe", c.rate_probe.to_string()),

@@ -4,7 +4,9 @@
 //! Per ChemSample, in order (each rejection is counted and diagnosed, never a panic):
 //! 1. a stamp of 0 (unset) is replaced by the receive time;
 //! 2. stale: `|now - stamp| > input.max_age` (when `max_age > 0`): dropped;
-//! 3. out of order: a stamp at or before the last accepted one: dropped;
+//! 3. out of order: a stamp at or before the last accepted one: dropped, unless it is more
+//!    than `input.backward_reset` before it (a bag loop, a restarted simulation): then the
+//!    estimator restarts (filters, windows, grid rate; the counters stay) with this sample;
 //! 4. malformed: `values` and `channels` of different lengths: dropped;
 //! 5. a new channel layout (names or count) rebuilds the channels;
 //! 6. while the grid rate is being measured (`input.sample_rate = 0`), the sample only
@@ -43,6 +45,8 @@ pub struct InputCounts {
     pub stale: u64,
     /// Dropped for a stamp at or before the previous one.
     pub out_of_order: u64,
+    /// Restarts after a step back in time of more than `input.backward_reset`.
+    pub backward_resets: u64,
     /// Dropped for `values` / `channels` length mismatch.
     pub malformed: u64,
     /// Values rejected by conditioning (NaN, inf, non-positive resistance, ...).
@@ -241,6 +245,16 @@ impl PlumeEstimator {
         true
     }
 
+    /// Starts over with the same parameters, keeping the counters and the frame.
+    fn restart(&mut self) {
+        if let Ok(mut fresh) = PlumeEstimator::new(self.params.clone()) {
+            fresh.counts = self.counts;
+            fresh.reject_history.fill(self.counts.rejected());
+            fresh.frame_id = std::mem::take(&mut self.frame_id);
+            *self = fresh;
+        }
+    }
+
     fn on_chem(&mut self, now: Nanos, m: &ChemSample) {
         self.counts.received += 1;
         let stamp = match m.header.stamp.to_nanos() {
@@ -252,9 +266,13 @@ impl PlumeEstimator {
             self.counts.stale += 1;
             return;
         }
-        if self.last_stamp.is_some_and(|last| stamp <= last) {
-            self.counts.out_of_order += 1;
-            return;
+        if let Some(last) = self.last_stamp.filter(|&last| stamp <= last) {
+            if last - stamp <= sillage_core::time::nanos(self.params.input.backward_reset) {
+                self.counts.out_of_order += 1;
+                return;
+            }
+            self.restart();
+            self.counts.backward_resets += 1;
         }
         if !m.channels.is_empty() && m.channels.len() != m.values.len() {
             self.counts.malformed += 1;

@@ -44,13 +44,16 @@ pub struct InputParams {
     pub max_age: f64,
     /// No accepted sample for this long: the input diagnostic turns STALE [s] (> 0).
     pub timeout: f64,
+    /// A stamp more than this before the last accepted one restarts the estimator (a bag
+    /// loop, a restarted simulation) instead of being dropped as out of order [s] (> 0).
+    pub backward_reset: f64,
     /// Most channels tracked; further channels are ignored and reported (1..=64).
     pub max_channels: usize,
 }
 
 impl Default for InputParams {
     fn default() -> Self {
-        InputParams { sample_rate: 0.0, max_gap: 1.0, max_age: 0.0, timeout: 2.0, max_channels: 8 }
+        InputParams { sample_rate: 0.0, max_gap: 1.0, max_age: 0.0, timeout: 2.0, backward_reset: 1.0, max_channels: 8 }
     }
 }
 
@@ -250,6 +253,7 @@ impl NodeParams for Params {
         ensure(positive(i.max_gap), "input.max_gap", "must be > 0 [s]")?;
         ensure(i.max_age.is_finite() && i.max_age >= 0.0, "input.max_age", "must be >= 0 [s] (0 = off)")?;
         ensure(positive(i.timeout), "input.timeout", "must be > 0 [s]")?;
+        ensure(positive(i.backward_reset), "input.backward_reset", "must be > 0 [s]")?;
         ensure((1..=64).contains(&i.max_channels), "input.max_channels", "must be in 1..=64")?;
 
         let f = &self.filter;
