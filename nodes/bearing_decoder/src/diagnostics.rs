@@ -79,5 +79,5 @@ pub fn status(node: &BearingDecoder, now: Nanos) -> DiagnosticStatus {
         Some((t, w)) if now - *t < WARN_HOLD => (DiagnosticStatus::WARN, format!("{summary}; {w}")),
         _ => (DiagnosticStatus::OK, summary),
     };
-    DiagnosticStatus::with(level, &format!("{}: bearing", crate::NODE_NAME), &message, &values)
+    DiagnosticStatus::from_values(level, format!("{}: bearing", crate::NODE_NAME), message, values)
 }

@@ -72,7 +72,7 @@ fn input_status(e: &EventEncoder, now: Nanos) -> DiagnosticStatus {
     if let Some(w) = e.warnings.latest() {
         values.push(("last_warning", w.to_string()));
     }
-    DiagnosticStatus::with(level, &format!("{NODE_NAME}: input"), &message, &values)
+    DiagnosticStatus::from_values(level, format!("{NODE_NAME}: input"), message, values)
 }
 
 fn channel_status(e: &EventEncoder, t: &Tracked, now: Nanos) -> DiagnosticStatus {
@@ -129,5 +129,5 @@ fn channel_status(e: &EventEncoder, t: &Tracked, now: Nanos) -> DiagnosticStatus
         ("reference", fmt(enc.reference())),
         ("delta", format!("{}", enc.delta())),
     ]);
-    DiagnosticStatus::with(level, &format!("{NODE_NAME}: {}", t.name), &message, &values)
+    DiagnosticStatus::from_values(level, format!("{NODE_NAME}: {}", t.name), message, values)
 }

@@ -26,6 +26,17 @@ ros_message! {
 }
 
 impl DiagnosticStatus {
+    /// A status taking its name, message and values by value (no copies of the strings).
+    pub fn from_values(level: u8, name: String, message: String, values: Vec<(&str, String)>) -> Self {
+        DiagnosticStatus {
+            level,
+            name,
+            message,
+            hardware_id: String::new(),
+            values: values.into_iter().map(|(k, value)| KeyValue { key: k.to_string(), value }).collect(),
+        }
+    }
+
     /// A status with the given level, name and message, and `values` from pairs.
     pub fn with(level: u8, name: &str, message: &str, values: &[(&str, String)]) -> Self {
         DiagnosticStatus {
