@@ -377,7 +377,8 @@ impl Arbiter {
                 let by_features = self.declarer.ready(now).filter(|_| ctx.contact.in_contact).map(|reason| {
                     (self.declarer.estimate(&odom.pose, self.last_bearing_odom, upwind), reason)
                 });
-                if let Some((estimate, reason)) = by_features.or_else(|| self.front.ready()) {
+                let by_front = || self.front.ready().filter(|_| self.params.declare.enabled);
+                if let Some((estimate, reason)) = by_features.or_else(by_front) {
                     self.declared = Some(Declared { at: now, estimate });
                     self.modes.enter(now, Mode::Declared, reason);
                     let p = PointStamped { header: Header::new(now, &self.params.frames.odom), point: Point { x: estimate.x, y: estimate.y, z: 0.0 } };

@@ -280,7 +280,7 @@ impl Default for ReactiveParams {
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
 pub struct DeclareParams {
-    /// Declare at all.
+    /// Declare at all (either rule).
     pub enabled: bool,
     /// Calibrated distance at most [m].
     pub max_distance: f64,

@@ -13,9 +13,13 @@ fn demo() -> Scenario {
 }
 
 fn sim(scenario: Scenario, time_limit: Option<f64>) -> Sim {
-    // No early end: every episode runs its whole time limit, so runs are comparable.
+    // No early end: declaring is switched off, so every episode runs its whole time limit and
+    // runs are comparable (a declaration would end the episode).
     let options = RunOptions { time_limit, halt_timeout: 1e9, ..Default::default() };
-    Sim { scenario, stack: StackSetup::default(), world: WorldParams::default(), options }
+    let file = std::env::temp_dir().join(format!("sillage-bench-episode-{}.yaml", std::process::id()));
+    std::fs::write(&file, "arbiter:\n  ros__parameters:\n    declare:\n      enabled: false\n").unwrap_or_else(|e| panic!("{}: {e}", file.display()));
+    let config = sillage_stack::StackConfig { params_file: Some(file), ..Default::default() };
+    Sim { scenario, stack: StackSetup { config, strategy: None }, world: WorldParams::default(), options }
 }
 
 /// One whole demo episode (240 simulated seconds, laser on).
