@@ -202,3 +202,49 @@ fn reverse_wind_frame_check_heads_minus_x() {
     assert!(sim.last_state().heading_target.abs() > PI - 1e-6, "{}", sim.last_state().heading_target);
     assert!(sim.pose.position.x < -0.5, "{:?}", sim.pose);
 }
+
+#[test]
+fn the_source_is_declared_where_the_plume_keeps_ending_upwind() {
+    // A plume that ends at its source, (5, 0): odor only downwind of it (x < 5), in a wedge
+    // that widens downwind (half-width 0.1 m + 0.3 m per metre), no distance cue at all. The robot surges to the end, loses the plume, casts
+    // across the last contact point, finds the plume again and surges back to the same end;
+    // the second stall declares (declare.front defaults: radius 0.6 m, 2 stalls).
+    // Near a source the events are dense: one per sample (20 Hz) inside the plume.
+    let src = Vec2::new(5.0, 0.0);
+    let plume: Plume = Box::new(move |p, _t| {
+        let inside = p.x < src.x && p.y.abs() < 0.1 + 0.3 * (src.x - p.x);
+        let features = if inside { (0.5, 0.2, f64::NAN, f64::NAN) } else { (0.0, 0.0, f64::NAN, f64::NAN) };
+        Odor { rising: u32::from(inside), features, bearing: None }
+    });
+    let mut sim = Sim::new(Params::default(), Pose2::default(), WIND_TO_MINUS_X, plume);
+    sim.run(s(120.0));
+    let modes = sim.modes();
+    assert_eq!(modes.last(), Some(&Mode::Declared), "{modes:?}");
+    assert!(modes.iter().filter(|m| **m == Mode::Casting).count() >= 2, "two losses before declaring: {modes:?}");
+    let reason = sim.last_state().reason;
+    assert!(reason.contains("the plume ended 3 times"), "{reason}");
+    let sources: Vec<_> = sim.outs.iter().filter_map(|o| if let Out::Source(_, p) = o { Some(p.clone()) } else { None }).collect();
+    assert_eq!(sources.len(), 1, "published once");
+    let e = Vec2::new(sources[0].point.x, sources[0].point.y);
+    // The ends are event-hit positions just inside the plume: within a sample's travel of
+    // x = 5, wherever along the crosswind cast line the robot re-entered.
+    assert!(e.distance(src) < 0.5, "estimate {e:?}, source {src:?}");
+    assert!(e.x < src.x, "the estimate is where odor was sensed: {e:?}");
+}
+
+#[test]
+fn stale_features_do_not_carry_the_surge_past_the_plume() {
+    // Odor events only up to x = 3, but the features stay high everywhere (a 20 s window that
+    // remembers the plume): the contact ends 3 s after the last event (contact.feature_hold)
+    // plus the 2 s loss timeout, not 20 s later.
+    let plume: Plume = Box::new(|p, t| {
+        let k = t / SAMPLE;
+        Odor { rising: u32::from(p.x < 3.0 && k % 4 == 0), features: (0.8, 0.4, f64::NAN, f64::NAN), bearing: None }
+    });
+    let mut sim = Sim::new(Params::default(), Pose2::default(), WIND_TO_MINUS_X, plume);
+    sim.run(s(40.0));
+    let cast = sim.first(Mode::Casting).expect("the contact is lost");
+    let at = sim.pose_at(cast).position;
+    // 0.3 m/s surge for at most 5 s past x = 3.
+    assert!(at.x < 3.0 + 0.3 * 5.0 + 0.2, "cast starts at {at:?}");
+}
