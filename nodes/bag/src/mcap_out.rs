@@ -120,7 +120,7 @@ enum Cmd {
 
 /// Where batches go.
 enum Mode {
-    Inline(McapOut),
+    Inline(Box<McapOut>),
     Thread { tx: SyncSender<Cmd>, spare: Receiver<Batch>, worker: JoinHandle<Result<(), BagError>> },
 }
 
@@ -136,7 +136,7 @@ impl Backend {
     /// `background`.
     pub(crate) fn new(path: &Path, writer: Mcap, background: bool) -> Result<Backend, BagError> {
         let out = McapOut { path: path.to_path_buf(), writer, schemas: Vec::new(), channels: Vec::new() };
-        let mode = if background { Backend::spawn(out)? } else { Mode::Inline(out) };
+        let mode = if background { Backend::spawn(out)? } else { Mode::Inline(Box::new(out)) };
         Ok(Backend { path: path.to_path_buf(), batch: Batch::default(), mode: Some(mode) })
     }
 

@@ -108,7 +108,7 @@ pub fn replay(
         out.span = Some(out.span.map_or((t, t), |(a, _)| (a, t)));
         last = Some(t);
         n += 1;
-        if n % 4096 == 0 {
+        if n.is_multiple_of(4096) {
             progress(t);
         }
     }
