@@ -11,6 +11,8 @@
 //! compression, and once with zstd on the caller's thread; bag time over wall time, and the
 //! CPU time of the process (all threads) over the same span.
 
+#![allow(clippy::result_large_err)] // sillage_bag errors carry file, topic and offset
+
 use sillage_bag::replay::replay;
 use sillage_bag::{Bag, BagWriter, QosProfile, ReadOptions, WriterOptions};
 use sillage_core::msg::*;
@@ -122,7 +124,8 @@ fn main() {
     let bag_s = minutes * 60.0;
     use sillage_bag::Compression::{Lz4, Zstd};
     // (label, output bag: compression, on the writer thread)
-    let all: &[(&str, Option<(Option<sillage_bag::Compression>, bool)>)] = &[
+    type OutputBag = Option<(Option<sillage_bag::Compression>, bool)>;
+    let all: &[(&str, OutputBag)] = &[
         ("", None),
         (" writing the output bag (zstd, writer thread)", Some((Some(Zstd), true))),
         (" writing the output bag (lz4, writer thread)", Some((Some(Lz4), true))),
