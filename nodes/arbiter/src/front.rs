@@ -186,4 +186,49 @@ mod tests {
         t.on_loss(Some(-std::f64::consts::FRAC_PI_2));
         assert_eq!(t.best(), Some(Vec2::new(5.0, 1.0)));
     }
+
+    proptest::proptest! {
+        /// Whatever the contacts: the estimate lies within the bounding box of the hit points,
+        /// a declaration needs `min_stalls` stalls and the rule switched on, and a period with
+        /// fewer than `min_hits` hits changes nothing.
+        #[test]
+        fn estimates_stay_among_the_hits(
+            periods in proptest::collection::vec(
+                (proptest::collection::vec((-20.0f64..20.0, -20.0f64..20.0), 0..6), -3.2f64..3.2),
+                0..12,
+            ),
+            min_hits in 1u32..4,
+            min_stalls in 1u32..4,
+            enabled in proptest::bool::ANY,
+        ) {
+            let p = FrontParams { enabled, min_hits, advance: 0.3, radius: 1.0, min_stalls };
+            let mut t = FrontTracker::new(p);
+            let (mut lo, mut hi) = (Vec2::new(f64::INFINITY, f64::INFINITY), Vec2::new(f64::NEG_INFINITY, f64::NEG_INFINITY));
+            for (points, upwind) in &periods {
+                let before = (t.best(), t.stalls());
+                for &(x, y) in points {
+                    t.on_event_hit(Vec2::new(x, y));
+                }
+                t.on_loss(Some(*upwind));
+                if points.len() < min_hits as usize {
+                    proptest::prop_assert_eq!((t.best(), t.stalls()), before);
+                } else {
+                    for &(x, y) in points {
+                        lo = Vec2::new(lo.x.min(x), lo.y.min(y));
+                        hi = Vec2::new(hi.x.max(x), hi.y.max(y));
+                    }
+                }
+                if let Some(b) = t.best() {
+                    proptest::prop_assert!(b.x >= lo.x - 1e-9 && b.x <= hi.x + 1e-9 && b.y >= lo.y - 1e-9 && b.y <= hi.y + 1e-9, "{b:?} outside {lo:?}..{hi:?}");
+                }
+                match t.ready() {
+                    Some((at, _)) => {
+                        proptest::prop_assert!(enabled && t.stalls() >= min_stalls);
+                        proptest::prop_assert_eq!(Some(at), t.best());
+                    }
+                    None => proptest::prop_assert!(!enabled || t.stalls() < min_stalls || t.best().is_none()),
+                }
+            }
+        }
+    }
 }
