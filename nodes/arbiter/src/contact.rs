@@ -65,6 +65,18 @@ pub struct ContactView {
     pub cause: Option<HitCause>,
 }
 
+/// What makes `f` a feature hit at these thresholds, if anything. A zero threshold would make
+/// every message a hit: only positive evidence counts.
+fn feature_cause(f: &FeaturesObs, bout_rate: f64, intermittency: f64) -> Option<HitCause> {
+    if f.bout_rate > 0.0 && f.bout_rate >= bout_rate {
+        Some(HitCause::BoutRate)
+    } else if f.intermittency > 0.0 && f.intermittency >= intermittency {
+        Some(HitCause::Intermittency)
+    } else {
+        None
+    }
+}
+
 /// The contact detector.
 #[derive(Debug, Clone)]
 pub struct ContactDetector {
@@ -129,7 +141,8 @@ impl ContactDetector {
     }
 
     /// Rising events arrived at `now`, the robot being at `at`.
-    pub fn on_events(&mut self, now: Nanos, e: EventsObs, at: Option<Vec2>) {
+    /// Returns whether they made a hit.
+    pub fn on_events(&mut self, now: Nanos, e: EventsObs, at: Option<Vec2>) -> bool {
         let need = self.p.hits_required as usize;
         for _ in 0..e.rising.min(self.p.hits_required) {
             if self.recent.len() == need {
@@ -138,9 +151,11 @@ impl ContactDetector {
             self.recent.push_back(now);
         }
         let window = nanos(self.p.hit_window);
-        if e.rising > 0 && self.recent.len() == need && self.recent.front().is_some_and(|&t| now.saturating_sub(t) <= window) {
+        let hit = e.rising > 0 && self.recent.len() == need && self.recent.front().is_some_and(|&t| now.saturating_sub(t) <= window);
+        if hit {
             self.hit(now, at, HitCause::Events);
         }
+        hit
     }
 
     /// Features arrived at `now`, the robot being at `at`.
@@ -151,13 +166,8 @@ impl ContactDetector {
         } else {
             (self.p.bout_rate_enter, self.p.intermittency_enter)
         };
-        // A zero threshold would make every message a hit; only positive evidence counts.
-        let cause = if f.bout_rate > 0.0 && f.bout_rate >= rate {
-            HitCause::BoutRate
-        } else if f.intermittency > 0.0 && f.intermittency >= inter {
-            HitCause::Intermittency
-        } else {
-            if !(f.bout_rate >= self.p.bout_rate_exit && f.bout_rate > 0.0) && !(f.intermittency >= self.p.intermittency_exit && f.intermittency > 0.0) {
+        let Some(cause) = feature_cause(f, rate, inter) else {
+            if feature_cause(f, self.p.bout_rate_exit, self.p.intermittency_exit).is_none() {
                 self.features_armed = true;
             }
             return;
@@ -205,11 +215,11 @@ mod tests {
     fn events_need_enough_hits_within_the_window() {
         let p = ContactParams { hits_required: 3, hit_window: 1.0, ..Default::default() };
         let mut c = ContactDetector::new(p);
-        c.on_events(0, EventsObs { rising: 2 }, Some(Vec2::new(1.0, 2.0)));
+        assert!(!c.on_events(0, EventsObs { rising: 2 }, Some(Vec2::new(1.0, 2.0))), "2 of 3");
         assert!(!c.in_contact(0));
         c.on_events(2 * SECOND, EventsObs { rising: 1 }, None);
         assert!(!c.in_contact(2 * SECOND), "the first two are outside the 1 s window");
-        c.on_events(2 * SECOND + SECOND / 2, EventsObs { rising: 2 }, Some(Vec2::new(3.0, 0.0)));
+        assert!(c.on_events(2 * SECOND + SECOND / 2, EventsObs { rising: 2 }, Some(Vec2::new(3.0, 0.0))), "3 within 1 s");
         let v = c.view(2 * SECOND + SECOND / 2);
         assert!(v.in_contact && v.hits == 1 && v.point == Some(Vec2::new(3.0, 0.0)));
         // Lost after loss_timeout (2 s default).

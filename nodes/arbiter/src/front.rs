@@ -22,6 +22,7 @@
 
 use crate::geometry::Vec2;
 use crate::params::FrontParams;
+use std::collections::VecDeque;
 
 /// Most hit points remembered per contact period (the oldest are forgotten first).
 const MAX_POINTS: usize = 256;
@@ -30,7 +31,7 @@ const MAX_POINTS: usize = 256;
 #[derive(Debug, Clone)]
 pub struct FrontTracker {
     p: FrontParams,
-    period: Vec<Vec2>,
+    period: VecDeque<Vec2>,
     best: Option<Vec2>,
     stalled: Vec<Vec2>,
 }
@@ -38,7 +39,7 @@ pub struct FrontTracker {
 impl FrontTracker {
     /// No contact yet.
     pub fn new(p: FrontParams) -> Self {
-        FrontTracker { p, period: Vec::new(), best: None, stalled: Vec::new() }
+        FrontTracker { p, period: VecDeque::new(), best: None, stalled: Vec::new() }
     }
 
     /// Replaces the thresholds and forgets the evidence.
@@ -50,9 +51,9 @@ impl FrontTracker {
     /// A rising-event hit with the robot at `at` [m, odom].
     pub fn on_event_hit(&mut self, at: Vec2) {
         if self.period.len() == MAX_POINTS {
-            self.period.remove(0);
+            self.period.pop_front();
         }
-        self.period.push(at);
+        self.period.push_back(at);
     }
 
     /// The contact was lost, the upwind heading being `upwind` [rad, odom] (`None`: unknown,

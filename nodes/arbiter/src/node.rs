@@ -486,9 +486,8 @@ impl NodeCore for Arbiter {
             (Some(Input::OdorEvents), Msg::OdorEventArray(m)) => {
                 self.accept(now, Input::OdorEvents, &m.header.stamp, inputs::events(m, self.params.contact.min_event_level), |s, e| {
                     let at = s.position();
-                    let before = s.contact.view(now).hits;
-                    s.contact.on_events(now, e, at);
-                    if let Some(at) = at.filter(|_| s.contact.view(now).hits > before) {
+                    let hit = s.contact.on_events(now, e, at);
+                    if let (true, Some(at)) = (hit, at) {
                         s.front.on_event_hit(at);
                     }
                 });
