@@ -245,7 +245,8 @@ impl PlumeEstimator {
         true
     }
 
-    /// Starts over with the same parameters, keeping the counters and the frame.
+    /// Starts over with the same parameters, keeping the counters and the frame. (`new` only
+    /// fails on parameters that do not validate, and these did when this core was built.)
     fn restart(&mut self) {
         if let Ok(mut fresh) = PlumeEstimator::new(self.params.clone()) {
             fresh.counts = self.counts;

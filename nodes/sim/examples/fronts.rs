@@ -4,11 +4,12 @@ use sillage_core::Msg;
 use sillage_sim::{EpisodeSpec, RunOptions, Sim, StackSetup, WorldParams};
 fn main() -> Result<(), Box<dyn std::error::Error>> {
     let args: Vec<String> = std::env::args().collect();
-    let scenario = sillage_world::Scenario::from_path(std::path::Path::new(&args[1]))?;
+    let path = args.get(1).ok_or("usage: fronts SCENARIO [EPISODES]")?;
+    let scenario = sillage_world::Scenario::from_path(std::path::Path::new(path))?;
     let n: usize = args.get(2).map(|s| s.parse()).transpose()?.unwrap_or(5);
     let config = sillage_stack::StackConfig { params_file: std::env::var_os("SIM_PARAMS").map(Into::into), ..Default::default() };
     let sim = Sim { stack: StackSetup { strategy: None, config }, world: WorldParams::default(), options: RunOptions { halt_timeout: 1e9, timeline_period: Some(0.1), ..Default::default() }, scenario };
-    let src = sim.scenario.sources[0].position;
+    let src = sim.scenario.sources.first().ok_or("the scenario has no source")?.position;
     let wdir = sim.scenario.wind.direction;
     let (dx, dy) = (wdir.cos(), wdir.sin());
     for i in 0..n {
