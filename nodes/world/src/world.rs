@@ -5,6 +5,9 @@
 //! `scenario.physics_dt`, cut so that every sensor sample falls exactly on a sub-step end;
 //! readings are queued with their stamps and drained by the caller. Frames: world = ENU
 //! `odom` (odometry is perfect), sensor readings in `base_link`.
+//! The anemometer reads the wind at its own world position; each MOX channel is a unit drawn
+//! around the scenario's nominal parameters from its own seeded stream; a closed arena
+//! (`room`) adds its well-mixed background to the plume everywhere.
 
 use crate::anemometer::{self, AnemometerParams};
 use crate::arena::Arena;
@@ -16,7 +19,8 @@ use crate::laser::{self, LaserParams, LaserScan};
 use crate::mox::MoxSensor;
 use crate::robot::Robot;
 use crate::sampling::SampleClock;
-use crate::scenario::{PlumeSpec, Scenario};
+use crate::room::Room;
+use crate::scenario::{PlumeSpec, Scenario, WindFieldKind};
 use crate::wind::WindField;
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
@@ -116,6 +120,8 @@ pub struct World {
     robot: Robot,
     mox: Vec<MoxSensor>,
     mox_rngs: Vec<ChaCha8Rng>,
+    room: Option<Room>,
+    total_release: f64,
     channels: Vec<String>,
     chem_clock: SampleClock,
     chem_out: Vec<ChemReading>,
@@ -148,15 +154,26 @@ impl World {
                 count,
             })?;
         let arena = scenario.arena();
-        let wind = WindField::new(scenario.wind_params(), stream(seed, 1));
+        let wind = match scenario.wind_field() {
+            WindFieldKind::Uniform => WindField::new(scenario.wind_params(), stream(seed, 1)),
+            WindFieldKind::Grid => WindField::with_grid(
+                scenario.wind_params(),
+                &scenario.wind.grid,
+                &arena,
+                stream(seed, 1),
+            ),
+        };
         let plume = match &scenario.plume {
             PlumeSpec::Filament { max_filaments } => {
-                PlumeModel::Filament(Box::new(FilamentPlume::new(
-                    scenario.filament_sources(),
-                    arena.bounds,
-                    *max_filaments,
-                    stream(seed, 2),
-                )))
+                PlumeModel::Filament(Box::new(
+                    FilamentPlume::new(
+                        scenario.filament_sources(),
+                        arena.bounds,
+                        *max_filaments,
+                        stream(seed, 2),
+                    )
+                    .with_walls(arena.obstacles.clone(), scenario.wind.grid.solid_walls.clone()),
+                ))
             }
             PlumeSpec::Gaussian {
                 stability_class,
@@ -188,6 +205,20 @@ impl World {
             rng: stream(seed, 4),
         });
         let anemometer = scenario.anemometer.clone();
+        let mut mox_rngs: Vec<ChaCha8Rng> = (0..n as u64).map(|i| stream(seed, 16 + i)).collect();
+        let mox = mox_rngs
+            .iter_mut()
+            .enumerate()
+            .map(|(i, rng)| {
+                let (unit, drift) = scenario.mox_params(i).draw_unit(rng);
+                MoxSensor::unit(unit, drift, rng)
+            })
+            .collect();
+        let room = scenario
+            .room
+            .as_ref()
+            .zip(scenario.room_volume())
+            .map(|(r, v)| Room::new(v, r.air_changes_per_hour));
         Ok(Self {
             arena,
             t_ns: 0,
@@ -195,10 +226,10 @@ impl World {
             wind,
             plume,
             robot,
-            mox: (0..n)
-                .map(|i| MoxSensor::new(scenario.mox_params(i)))
-                .collect(),
-            mox_rngs: (0..n as u64).map(|i| stream(seed, 16 + i)).collect(),
+            mox,
+            mox_rngs,
+            room,
+            total_release: scenario.sources.iter().map(|s| s.release_rate).sum(),
             channels: scenario
                 .sensors
                 .channels
@@ -280,12 +311,22 @@ impl World {
         if let PlumeModel::Filament(f) = &mut self.plume {
             f.step_to(&self.wind, t_next);
         }
+        if let Some(r) = &mut self.room {
+            r.step(self.total_release, h);
+        }
         self.robot.step(&self.arena, h);
         self.t_ns = next;
         let pose = self.robot.pose();
-        for (sensor, ch) in self.mox.iter_mut().zip(&self.scenario.sensors.channels) {
-            let c = self.plume.concentration(pose.body_to_world(ch.position));
+        let bg = self.background();
+        for ((sensor, ch), rng) in self
+            .mox
+            .iter_mut()
+            .zip(&self.scenario.sensors.channels)
+            .zip(self.mox_rngs.iter_mut())
+        {
+            let c = self.plume.concentration(pose.body_to_world(ch.position)) + bg;
             sensor.update(c, h);
+            sensor.advance_baseline(h, rng);
         }
         self.sample(pose);
     }
@@ -331,12 +372,28 @@ impl World {
             if m.clock.take_due(now).is_some() {
                 let mut snapshot = Vec::with_capacity(m.sum.len());
                 self.plume.grid_concentrations(&m.grid, &mut snapshot);
+                let bg = self.room.as_ref().map_or(0.0, Room::concentration);
                 for (s, c) in m.sum.iter_mut().zip(snapshot) {
-                    *s += c;
+                    *s += c + bg;
                 }
                 m.count += 1;
             }
         }
+    }
+
+    /// Well-mixed background concentration now [g/m^3] (0 in open air).
+    pub fn background(&self) -> f64 {
+        self.room.as_ref().map_or(0.0, Room::concentration)
+    }
+
+    /// The drawn MOX units (parameters, baseline) in channel order.
+    pub fn sensors(&self) -> &[MoxSensor] {
+        &self.mox
+    }
+
+    /// The wind field.
+    pub fn wind(&self) -> &WindField {
+        &self.wind
     }
 
     /// Chemical channel names, in the order of [`ChemReading::resistances`].
@@ -371,7 +428,7 @@ impl World {
             .sensors
             .channels
             .iter()
-            .map(|c| self.plume.concentration(pose.body_to_world(c.position)))
+            .map(|c| self.plume.concentration(pose.body_to_world(c.position)) + self.background())
             .collect()
     }
 
@@ -453,7 +510,7 @@ impl World {
 
     /// Instantaneous concentration [g/m^3] at world point `p` [m].
     pub fn concentration_at(&self, p: [f64; 3]) -> f64 {
-        self.plume.concentration(p)
+        self.plume.concentration(p) + self.background()
     }
 
     /// Live filaments (0 in the gaussian mode).
@@ -468,6 +525,8 @@ impl World {
     pub fn concentration_map(&self, grid: &GridSpec) -> Vec<f64> {
         let mut out = Vec::with_capacity(grid.nx * grid.ny);
         self.plume.grid_concentrations(grid, &mut out);
+        let bg = self.background();
+        out.iter_mut().for_each(|c| *c += bg);
         out
     }
 
