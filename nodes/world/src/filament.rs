@@ -19,7 +19,8 @@
 //!   face it crossed (the face of least penetration); past a solid edge it is mirrored back
 //!   inside. The gas cannot pass through them.
 //! - filaments older than `max_age` or leaving the arena through an open edge are dropped;
-//!   above `max_filaments` the oldest go first.
+//!   above `max_filaments` the oldest go first. The mass of those dropped inside the arena
+//!   is handed on ([`FilamentPlume::take_retired_mass`]) to the room background.
 //! - a filament is summed only within `CUTOFF_SIGMAS` R of the query point horizontally
 //!   (the neglected tail is below exp(-CUTOFF_SIGMAS^2 / 2) of its peak). A single query
 //!   scans the live filaments (a cheap squared-distance test each; the few sensors of a
@@ -230,6 +231,7 @@ pub struct FilamentPlume {
     time: f64,
     obstacles: Vec<Aabb>,
     solid: Vec<Edge>,
+    retired: f64,
 }
 
 impl FilamentPlume {
@@ -257,6 +259,7 @@ impl FilamentPlume {
             time: 0.0,
             obstacles: Vec::new(),
             solid: Vec::new(),
+            retired: 0.0,
         }
     }
 
@@ -265,6 +268,12 @@ impl FilamentPlume {
         self.obstacles = obstacles;
         self.solid = solid;
         self
+    }
+
+    /// Mass [g] of the filaments dropped inside the arena (aged out or over the cap) since
+    /// the last call: gas still in the room that the plume no longer resolves.
+    pub fn take_retired_mass(&mut self) -> f64 {
+        std::mem::take(&mut self.retired)
     }
 
     /// Simulation time of the plume [s].
@@ -332,14 +341,24 @@ impl FilamentPlume {
             }
         }
         let (bounds, sources) = (&self.bounds, &self.sources);
+        let mut retired = 0.0;
         self.filaments.retain(|f| {
-            t_end - f.birth <= sources[f.source].params.max_age
-                && bounds.contains([f.pos[0], f.pos[1]])
+            let inside = bounds.contains([f.pos[0], f.pos[1]]);
+            let young = t_end - f.birth <= sources[f.source].params.max_age;
+            if inside && !young {
+                retired += sources[f.source].mass_per_filament();
+            }
+            inside && young
         });
         if self.filaments.len() > self.max_filaments {
             let excess = self.filaments.len() - self.max_filaments;
-            self.filaments.drain(..excess);
+            retired += self
+                .filaments
+                .drain(..excess)
+                .map(|f| sources[f.source].mass_per_filament())
+                .sum::<f64>();
         }
+        self.retired += retired;
         self.time = t_end;
     }
 

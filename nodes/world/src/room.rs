@@ -7,7 +7,8 @@
 //! lambda = 0 (a sealed room) C grows as Q t / V. The state is advanced step by step with
 //! the exact update for Q held over the step, C' = C_ss + (C - C_ss) exp(-lambda h). The
 //! background is a uniform concentration [g/m^3] added to the plume everywhere: it stands for
-//! the gas the plume model no longer carries (filaments aged out or mixed beyond their cut-off).
+//! the gas the plume model no longer carries (in the world, Q is the mass rate of the
+//! filaments that age out inside the arena).
 
 /// Room parameters (scenario key `room`; absent = open air, no background).
 #[derive(Debug, Clone, PartialEq, serde::Deserialize)]

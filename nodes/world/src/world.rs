@@ -7,7 +7,10 @@
 //! `odom` (odometry is perfect), sensor readings in `base_link`.
 //! The anemometer reads the wind at its own world position; each MOX channel is a unit drawn
 //! around the scenario's nominal parameters from its own seeded stream; a closed arena
-//! (`room`) adds its well-mixed background to the plume everywhere.
+//! (`room`) adds its well-mixed background to the plume everywhere, fed by the filaments
+//! that age out inside the arena (their gas stays in the room, now well mixed) and emptied
+//! by the ventilation; in the gaussian mode the room has no source (the plume is a steady
+//! state that resolves all the gas).
 
 use crate::anemometer::{self, AnemometerParams};
 use crate::arena::Arena;
@@ -121,7 +124,6 @@ pub struct World {
     mox: Vec<MoxSensor>,
     mox_rngs: Vec<ChaCha8Rng>,
     room: Option<Room>,
-    total_release: f64,
     channels: Vec<String>,
     chem_clock: SampleClock,
     chem_out: Vec<ChemReading>,
@@ -229,7 +231,6 @@ impl World {
             mox,
             mox_rngs,
             room,
-            total_release: scenario.sources.iter().map(|s| s.release_rate).sum(),
             channels: scenario
                 .sensors
                 .channels
@@ -308,11 +309,13 @@ impl World {
         let h = (next - self.t_ns) as f64 * 1e-9;
         let t_next = next as f64 * 1e-9;
         self.wind.advance_to(t_next);
+        let mut into_room = 0.0;
         if let PlumeModel::Filament(f) = &mut self.plume {
             f.step_to(&self.wind, t_next);
+            into_room = f.take_retired_mass() / h;
         }
         if let Some(r) = &mut self.room {
-            r.step(self.total_release, h);
+            r.step(into_room, h);
         }
         self.robot.step(&self.arena, h);
         self.t_ns = next;
