@@ -453,11 +453,17 @@ impl Walls<'_> {
                     (before[1] <= o.y_min, pos[1] - o.y_min, 2),
                     (before[1] >= o.y_max, o.y_max - pos[1], 3),
                 ];
-                let crossed = cands.iter().filter(|c| c.0).min_by(|a, b| a.1.total_cmp(&b.1));
+                let crossed = cands
+                    .iter()
+                    .filter(|c| c.0)
+                    .min_by(|a, b| a.1.total_cmp(&b.1));
                 let face = match crossed {
                     Some(c) => c.2,
                     // Started inside (released or pushed there): leave by the nearest face.
-                    None => cands.iter().min_by(|a, b| a.1.total_cmp(&b.1)).map_or(0, |c| c.2),
+                    None => cands
+                        .iter()
+                        .min_by(|a, b| a.1.total_cmp(&b.1))
+                        .map_or(0, |c| c.2),
                 };
                 match face {
                     0 => pos[0] = 2.0 * o.x_min - pos[0] - 1e-9,
@@ -594,7 +600,11 @@ mod tests {
                 // The batch path (cell index) applies the same cut-off: equal up to round-off.
                 let mut batch = Vec::new();
                 p.concentrations(std::iter::once(q), &mut batch);
-                assert!((batch[0] - fast).abs() <= 1e-12 * fast.abs(), "{q:?}: {} vs {fast}", batch[0]);
+                assert!(
+                    (batch[0] - fast).abs() <= 1e-12 * fast.abs(),
+                    "{q:?}: {} vs {fast}",
+                    batch[0]
+                );
             }
         }
         assert!(checked > 50, "only {checked} points saw the plume");
@@ -640,13 +650,19 @@ mod tests {
             wb.advance_to(t);
             with.step_to(&wa, t);
             without.step_to(&wb, t);
-            assert!(with.filaments.iter().all(|f| !wall.contains([f.pos[0], f.pos[1]])));
+            assert!(with
+                .filaments
+                .iter()
+                .all(|f| !wall.contains([f.pos[0], f.pos[1]])));
             if k > 300 {
                 behind_with += with.concentration([4.8, 5.0, 0.3]);
                 behind_without += without.concentration([4.8, 5.0, 0.3]);
             }
         }
-        assert!(behind_with < 0.2 * behind_without, "{behind_with} vs {behind_without}");
+        assert!(
+            behind_with < 0.2 * behind_without,
+            "{behind_with} vs {behind_without}"
+        );
         // Mass is kept: the filaments pile up upstream instead of vanishing.
         assert!(with.filament_count() >= without.filament_count());
     }

@@ -255,7 +255,11 @@ mod tests {
         let r4 = p.steady_resistance(4.0);
         assert_relative_eq!(r4 / r1, 0.5, max_relative = 1e-4);
         assert_relative_eq!(p.steady_resistance(0.0), p.r0, max_relative = 1e-12);
-        assert_relative_eq!(p.steady_resistance(p.c0), p.r0 / 2f64.sqrt(), max_relative = 1e-12);
+        assert_relative_eq!(
+            p.steady_resistance(p.c0),
+            p.r0 / 2f64.sqrt(),
+            max_relative = 1e-12
+        );
         let g = |c: f64| 1.0 / p.steady_resistance(c);
         let slope = (g(10.0).ln() - g(1.0).ln()) / 10f64.ln();
         assert_relative_eq!(slope, 0.5, max_relative = 1e-4);
@@ -275,13 +279,20 @@ mod tests {
         assert!((sd - 0.15).abs() < 0.02, "ln R0 spread {sd}");
         assert!(units.iter().all(|u| u.0.beta >= 0.05 && u.0.tau_rise > 0.0));
         let (ideal, drift) = nominal.ideal().draw_unit(&mut rng);
-        assert_eq!((ideal.r0, ideal.beta, ideal.tau_rise, drift), (nominal.r0, nominal.beta, nominal.tau_rise, 0.0));
+        assert_eq!(
+            (ideal.r0, ideal.beta, ideal.tau_rise, drift),
+            (nominal.r0, nominal.beta, nominal.tau_rise, 0.0)
+        );
         // Drift: after one hour a unit drawn with rate d sits at R0 exp(d 3600 s).
         let mut s = MoxSensor::unit(ideal.clone(), 1e-5, &mut rng);
         for _ in 0..3600 {
             s.advance_baseline(1.0, &mut rng);
         }
-        assert_relative_eq!(s.baseline(), ideal.r0 * (0.036f64).exp(), max_relative = 1e-9);
+        assert_relative_eq!(
+            s.baseline(),
+            ideal.r0 * (0.036f64).exp(),
+            max_relative = 1e-9
+        );
     }
 
     /// Times at which a step response crosses `levels` (fractions of the final change),

@@ -78,6 +78,10 @@ mod tests {
             vented.step(0.01, 60.0);
         }
         // Q / (V lambda) = 0.01 / (100 * 6 / 3600) = 0.06 g/m^3.
-        assert!((vented.concentration() - 0.06).abs() < 1e-12, "{}", vented.concentration());
+        assert!(
+            (vented.concentration() - 0.06).abs() < 1e-12,
+            "{}",
+            vented.concentration()
+        );
     }
 }

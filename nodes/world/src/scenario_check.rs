@@ -165,7 +165,10 @@ fn validate_wind_grid(s: &Scenario, c: &Checker<'_>) -> Result<(), WorldError> {
     let mut seen = HashSet::new();
     for (i, e) in g.solid_walls.iter().enumerate() {
         if !seen.insert(*e) {
-            return Err(c.fail(format!("wind.grid.solid_walls[{i}]"), format!("{e:?} is listed twice")));
+            return Err(c.fail(
+                format!("wind.grid.solid_walls[{i}]"),
+                format!("{e:?} is listed twice"),
+            ));
         }
     }
     if [Edge::South, Edge::East, Edge::North, Edge::West]
@@ -178,12 +181,18 @@ fn validate_wind_grid(s: &Scenario, c: &Checker<'_>) -> Result<(), WorldError> {
         ));
     }
     if s.wind_field() == WindFieldKind::Grid {
-        let (w, h) = (s.arena.max[0] - s.arena.min[0], s.arena.max[1] - s.arena.min[1]);
+        let (w, h) = (
+            s.arena.max[0] - s.arena.min[0],
+            s.arena.max[1] - s.arena.min[1],
+        );
         let cells = (w / g.resolution).round() * (h / g.resolution).round();
         if cells > 250_000.0 {
             return Err(c.fail(
                 "wind.grid.resolution",
-                format!("{} m gives {cells} cells over the arena (at most 250000): use a coarser grid", g.resolution),
+                format!(
+                    "{} m gives {cells} cells over the arena (at most 250000): use a coarser grid",
+                    g.resolution
+                ),
             ));
         }
     }

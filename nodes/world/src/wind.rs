@@ -136,7 +136,12 @@ impl WindField {
 
     /// Creates the grid field over `arena` at time 0 (solving its basis flows once), with
     /// the corner meanders drawn from `rng`.
-    pub fn with_grid(params: WindParams, grid: &WindGridParams, arena: &Arena, mut rng: ChaCha8Rng) -> Self {
+    pub fn with_grid(
+        params: WindParams,
+        grid: &WindGridParams,
+        arena: &Arena,
+        mut rng: ChaCha8Rng,
+    ) -> Self {
         let flow = FlowGrid::new(arena, grid.resolution, &grid.solid_walls);
         let noises: Vec<[ColouredNoise; 2]> = (0..5)
             .map(|_| {
@@ -332,11 +337,17 @@ mod tests {
         let (p, q) = ([2.0, 2.0, 0.3], [18.0, 10.0, 0.3]);
         assert_eq!(a.velocity(p, 30.0), b.velocity(p, 30.0));
         let (vp, vq) = (a.velocity(p, 30.0), a.velocity(q, 30.0));
-        assert!((vp[0] - vq[0]).abs() + (vp[1] - vq[1]).abs() > 1e-3, "{vp:?} {vq:?}");
+        assert!(
+            (vp[0] - vq[0]).abs() + (vp[1] - vq[1]).abs() > 1e-3,
+            "{vp:?} {vq:?}"
+        );
         // Upstream of the box centre (wind towards +x): the air slows down in front of it.
         let front = a.velocity([8.9, 6.0, 0.3], 30.0);
         let side = a.velocity([10.0, 8.0, 0.3], 30.0);
-        assert!(front[0].hypot(front[1]) < side[0].hypot(side[1]), "{front:?} {side:?}");
+        assert!(
+            front[0].hypot(front[1]) < side[0].hypot(side[1]),
+            "{front:?} {side:?}"
+        );
     }
 
     #[test]

@@ -69,11 +69,15 @@ pub struct FaceField {
 fn lerp_grid(values: &[f64], stride: usize, n_i: usize, n_j: usize, fi: f64, fj: f64) -> f64 {
     let fi = fi.clamp(0.0, (n_i - 1) as f64);
     let fj = fj.clamp(0.0, (n_j - 1) as f64);
-    let (i0, j0) = ((fi as usize).min(n_i.saturating_sub(2)), (fj as usize).min(n_j.saturating_sub(2)));
+    let (i0, j0) = (
+        (fi as usize).min(n_i.saturating_sub(2)),
+        (fj as usize).min(n_j.saturating_sub(2)),
+    );
     let (i1, j1) = ((i0 + 1).min(n_i - 1), (j0 + 1).min(n_j - 1));
     let (a, b) = (fi - i0 as f64, fj - j0 as f64);
     let at = |i: usize, j: usize| values[j * stride + i];
-    (1.0 - b) * ((1.0 - a) * at(i0, j0) + a * at(i1, j0)) + b * ((1.0 - a) * at(i0, j1) + a * at(i1, j1))
+    (1.0 - b) * ((1.0 - a) * at(i0, j0) + a * at(i1, j0))
+        + b * ((1.0 - a) * at(i0, j1) + a * at(i1, j1))
 }
 
 impl FaceField {
@@ -275,8 +279,14 @@ impl Layout {
         let mut open_len = 0.0;
         for (k, &(i, j, edge)) in per.iter().enumerate() {
             let (i2, j2, _) = per[(k + 1) % n];
-            let (x1, y1) = (self.origin[0] + i as f64 * self.hx, self.origin[1] + j as f64 * self.hy);
-            let (x2, y2) = (self.origin[0] + i2 as f64 * self.hx, self.origin[1] + j2 as f64 * self.hy);
+            let (x1, y1) = (
+                self.origin[0] + i as f64 * self.hx,
+                self.origin[1] + j as f64 * self.hy,
+            );
+            let (x2, y2) = (
+                self.origin[0] + i2 as f64 * self.hx,
+                self.origin[1] + j2 as f64 * self.hy,
+            );
             let blocked = matches!(self.nodes[j * (self.nx + 1) + i], Node::Solid(_))
                 && matches!(self.nodes[j2 * (self.nx + 1) + i2], Node::Solid(_));
             if self.solid_edges.contains(&edge) || blocked {
@@ -296,7 +306,8 @@ impl Layout {
             out.push(((i, j), psi));
             if let Some(q) = flux[k] {
                 let (i2, j2, _) = per[(k + 1) % n];
-                let len = ((i2 as f64 - i as f64) * self.hx).hypot((j2 as f64 - j as f64) * self.hy);
+                let len =
+                    ((i2 as f64 - i as f64) * self.hx).hypot((j2 as f64 - j as f64) * self.hy);
                 psi += q - net * len / open_len.max(f64::MIN_POSITIVE);
             }
         }
@@ -335,8 +346,10 @@ impl Layout {
                     if self.nodes[idx] != Node::Fluid {
                         continue;
                     }
-                    let s = wx * (value(&psi, &group_val, idx - 1) + value(&psi, &group_val, idx + 1))
-                        + wy * (value(&psi, &group_val, idx - sx) + value(&psi, &group_val, idx + sx));
+                    let s = wx
+                        * (value(&psi, &group_val, idx - 1) + value(&psi, &group_val, idx + 1))
+                        + wy * (value(&psi, &group_val, idx - sx)
+                            + value(&psi, &group_val, idx + sx));
                     let d = omega * (s / diag - psi[idx]);
                     psi[idx] += d;
                     change = change.max(d.abs());
@@ -348,7 +361,9 @@ impl Layout {
             for j in 1..ny {
                 for i in 1..nx {
                     let idx = j * sx + i;
-                    let Node::Solid(g) = self.nodes[idx] else { continue };
+                    let Node::Solid(g) = self.nodes[idx] else {
+                        continue;
+                    };
                     if group_fixed[g].is_some() {
                         continue;
                     }
@@ -450,13 +465,19 @@ mod tests {
         let f = g.field(&[[0.8, 0.3]; 4]);
         for (x, y) in [(1.0, 1.0), (5.2, 3.3), (9.9, 0.1)] {
             let v = f.velocity(x, y);
-            assert!((v[0] - 0.8).abs() < 1e-9 && (v[1] - 0.3).abs() < 1e-9, "{v:?}");
+            assert!(
+                (v[0] - 0.8).abs() < 1e-9 && (v[1] - 0.3).abs() < 1e-9,
+                "{v:?}"
+            );
         }
     }
 
     #[test]
     fn divergence_free_and_no_flow_into_obstacles_or_solid_walls() {
-        let arena = open_room(vec![Aabb::new(4.0, 2.0, 5.0, 4.0), Aabb::new(7.0, 0.0, 8.0, 1.0)]);
+        let arena = open_room(vec![
+            Aabb::new(4.0, 2.0, 5.0, 4.0),
+            Aabb::new(7.0, 0.0, 8.0, 1.0),
+        ]);
         let g = FlowGrid::new(&arena, 0.5, &[Edge::North]);
         let f = g.field(&[[1.0, 0.2], [0.6, -0.4], [0.9, 0.5], [1.2, 0.0]]);
         let scale = 1.0 / 0.5;

@@ -21,8 +21,8 @@ use crate::geometry::{Pose2, Twist2};
 use crate::laser::{self, LaserParams, LaserScan};
 use crate::mox::MoxSensor;
 use crate::robot::Robot;
-use crate::sampling::SampleClock;
 use crate::room::Room;
+use crate::sampling::SampleClock;
 use crate::scenario::{PlumeSpec, Scenario, WindFieldKind};
 use crate::wind::WindField;
 use rand::SeedableRng;
@@ -166,17 +166,18 @@ impl World {
             ),
         };
         let plume = match &scenario.plume {
-            PlumeSpec::Filament { max_filaments } => {
-                PlumeModel::Filament(Box::new(
-                    FilamentPlume::new(
-                        scenario.filament_sources(),
-                        arena.bounds,
-                        *max_filaments,
-                        stream(seed, 2),
-                    )
-                    .with_walls(arena.obstacles.clone(), scenario.wind.grid.solid_walls.clone()),
-                ))
-            }
+            PlumeSpec::Filament { max_filaments } => PlumeModel::Filament(Box::new(
+                FilamentPlume::new(
+                    scenario.filament_sources(),
+                    arena.bounds,
+                    *max_filaments,
+                    stream(seed, 2),
+                )
+                .with_walls(
+                    arena.obstacles.clone(),
+                    scenario.wind.grid.solid_walls.clone(),
+                ),
+            )),
             PlumeSpec::Gaussian {
                 stability_class,
                 terrain,

@@ -94,7 +94,10 @@ struct MoxCase {
 }
 
 fn refs() -> Refs {
-    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/fixtures/world_field_refs.json");
+    let path = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/fixtures/world_field_refs.json"
+    );
     let text = std::fs::read_to_string(path).unwrap_or_else(|e| panic!("{path}: {e}"));
     let r: Refs = serde_json::from_str(&text).unwrap_or_else(|e| panic!("{path}: {e}"));
     assert!(r.made_by.contains("scipy 1.17.1"), "{}", r.made_by);
@@ -158,12 +161,28 @@ fn meander_statistics_match_ar1_values_and_scipy_estimates() {
             sp.tau_from_lag1, a.tau_from_lag1, ours.integral_time, sp.integral_time, a.integral_time
         );
         // Variance and lag-1 correlation within 4 large-sample standard errors of AR(1).
-        assert!((ours.variance - a.variance).abs() < 4.0 * a.se_variance, "variance {}", ours.variance);
-        assert!((ours.acf[1] - a.acf[1]).abs() < 4.0 * a.se_acf1, "rho(1) {}", ours.acf[1]);
+        assert!(
+            (ours.variance - a.variance).abs() < 4.0 * a.se_variance,
+            "variance {}",
+            ours.variance
+        );
+        assert!(
+            (ours.acf[1] - a.acf[1]).abs() < 4.0 * a.se_acf1,
+            "rho(1) {}",
+            ours.acf[1]
+        );
         // Time scales: sampling error of a few percent for these lengths (the scipy series
         // shows the same spread); ours and scipy's must agree with each other too.
-        assert!((ours.tau_from_lag1 / a.tau_from_lag1 - 1.0).abs() < 0.06, "tau {}", ours.tau_from_lag1);
-        assert!((ours.integral_time / a.integral_time - 1.0).abs() < 0.10, "T {}", ours.integral_time);
+        assert!(
+            (ours.tau_from_lag1 / a.tau_from_lag1 - 1.0).abs() < 0.06,
+            "tau {}",
+            ours.tau_from_lag1
+        );
+        assert!(
+            (ours.integral_time / a.integral_time - 1.0).abs() < 0.10,
+            "T {}",
+            ours.integral_time
+        );
         assert!((ours.tau_from_lag1 / sp.tau_from_lag1 - 1.0).abs() < 0.09);
         assert!((ours.integral_time / sp.integral_time - 1.0).abs() < 0.14);
         assert!((ours.variance / sp.variance - 1.0).abs() < 0.15);
@@ -179,7 +198,11 @@ fn grid_flow_matches_scipy_sparse_and_has_no_divergence() {
     let f = refs().flow;
     let arena = Arena {
         bounds: Aabb::new(f.arena[0], f.arena[1], f.arena[2], f.arena[3]),
-        obstacles: f.obstacles.iter().map(|b| Aabb::new(b[0], b[1], b[2], b[3])).collect(),
+        obstacles: f
+            .obstacles
+            .iter()
+            .map(|b| Aabb::new(b[0], b[1], b[2], b[3]))
+            .collect(),
     };
     let field = FlowGrid::new(&arena, f.resolution, &f.solid_walls).field(&f.corners);
     assert_eq!((field.nx, field.ny), (f.nx, f.ny));
@@ -200,7 +223,10 @@ fn grid_flow_matches_scipy_sparse_and_has_no_divergence() {
         "max |div| ours {max_div:.2e} 1/s, scipy {:.2e} 1/s; max |solid face velocity| scipy {:.1e} m/s",
         f.max_abs_divergence, f.max_abs_solid_face_velocity
     );
-    assert!(max_div < 1e-12 * scale / f.resolution && f.max_abs_divergence < 1e-12 * scale / f.resolution);
+    assert!(
+        max_div < 1e-12 * scale / f.resolution
+            && f.max_abs_divergence < 1e-12 * scale / f.resolution
+    );
     assert!(f.max_abs_solid_face_velocity < 1e-12);
     // The solid north wall carries nothing across it.
     assert!((0..field.nx).all(|i| field.v_face(i, field.ny).abs() < 1e-12 * scale));
@@ -250,9 +276,18 @@ fn mox_law_matches_the_published_curve_form() {
         // the coarse grid of the fixture (its own error is O(h^2), h = 0.23 in ln C).
         for (k, (c, want)) in m.c.iter().zip(&m.loglog_slope).enumerate() {
             let e: f64 = 1e-5;
-            let slope = (p.steady_resistance(c * e.exp()).ln() - p.steady_resistance(c / e.exp()).ln()) / (2.0 * e);
-            let tol = if k == 0 || k == m.c.len() - 1 { 0.05 } else { 0.01 } * m.beta;
-            assert!((slope - want).abs() < tol, "C {c}: slope {slope} vs numpy {want}");
+            let slope = (p.steady_resistance(c * e.exp()).ln()
+                - p.steady_resistance(c / e.exp()).ln())
+                / (2.0 * e);
+            let tol = if k == 0 || k == m.c.len() - 1 {
+                0.05
+            } else {
+                0.01
+            } * m.beta;
+            assert!(
+                (slope - want).abs() < tol,
+                "C {c}: slope {slope} vs numpy {want}"
+            );
         }
         // Ends: the power law's -beta far above C0, flat (clean air) far below.
         let last = m.loglog_slope[m.loglog_slope.len() - 1];

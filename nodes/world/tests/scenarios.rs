@@ -122,7 +122,11 @@ fn invalid_values_name_the_key() {
             "solid_walls: [south, south]",
             "wind.grid.solid_walls[1]",
         ),
-        ("air_changes_per_hour: 90.0", "air_changes_per_hour: -1.0", "room.air_changes_per_hour"),
+        (
+            "air_changes_per_hour: 90.0",
+            "air_changes_per_hour: -1.0",
+            "room.air_changes_per_hour",
+        ),
         ("height: 6.0", "height: 0.0", "room.height"),
     ];
     for (from, to, key) in cases {
@@ -162,7 +166,10 @@ fn gaussian_mode_refuses_a_wind_it_does_not_follow() {
     // Without the key the gaussian mode takes the uniform field (and loads).
     let plain = text.replace("  field: uniform\n", "");
     let s = Scenario::from_yaml_str(&plain, "plain.yaml").unwrap_or_else(|e| panic!("{e}"));
-    assert_eq!(s.wind_field(), sillage_world::scenario::WindFieldKind::Uniform);
+    assert_eq!(
+        s.wind_field(),
+        sillage_world::scenario::WindFieldKind::Uniform
+    );
     let meander = error_of(&text.replace(
         "field: uniform",
         "field: uniform\n  meander: {direction_std: 0.2}",

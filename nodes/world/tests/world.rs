@@ -209,9 +209,15 @@ fn anemometer_reads_the_local_grid_wind() {
         let at = w.robot_pose().body_to_world(s.anemometer.position);
         let u = w.wind_at(at);
         let now = w.anemometer_now();
-        assert!((now[0] - u[0]).abs() < 1e-12 && (now[1] - u[1]).abs() < 1e-12, "{now:?} vs {u:?}");
+        assert!(
+            (now[0] - u[0]).abs() < 1e-12 && (now[1] - u[1]).abs() < 1e-12,
+            "{now:?} vs {u:?}"
+        );
     }
-    assert!((va[0] - vb[0]).abs() + (va[1] - vb[1]).abs() > 1e-3, "{va:?} {vb:?}");
+    assert!(
+        (va[0] - vb[0]).abs() + (va[1] - vb[1]).abs() > 1e-3,
+        "{va:?} {vb:?}"
+    );
 }
 
 /// A closed hall (three solid walls, an inlet that lets the draft in and out) with short-lived
@@ -223,17 +229,31 @@ fn closed_hall_builds_a_well_mixed_background() {
     s.wind.speed = 0.05;
     s.wind.meander.direction_std = 0.0;
     s.wind.meander.speed_std = 0.0;
-    s.wind.grid.solid_walls = vec![sillage_world::wind_grid::Edge::South, sillage_world::wind_grid::Edge::North, sillage_world::wind_grid::Edge::East];
+    s.wind.grid.solid_walls = vec![
+        sillage_world::wind_grid::Edge::South,
+        sillage_world::wind_grid::Edge::North,
+        sillage_world::wind_grid::Edge::East,
+    ];
     s.sources[0].filaments.max_age = 5.0;
     let ach = 2.0;
-    s.room = Some(sillage_world::room::RoomParams { height: 6.0, air_changes_per_hour: ach });
+    s.room = Some(sillage_world::room::RoomParams {
+        height: 6.0,
+        air_changes_per_hour: ach,
+    });
     s.laser = None;
     let mut w = world(&s, 2, 0);
     w.step(400.0);
     let (q, v, lambda) = (s.sources[0].release_rate, 20.0 * 12.0 * 6.0, ach / 3600.0);
     let want = q / (v * lambda) * (1.0 - (-lambda * (400.0 - 5.0)).exp());
-    println!("background after 400 s: {:.4e} g/m^3, single-zone {want:.4e}", w.background());
-    assert!((w.background() / want - 1.0).abs() < 0.02, "{} vs {want}", w.background());
+    println!(
+        "background after 400 s: {:.4e} g/m^3, single-zone {want:.4e}",
+        w.background()
+    );
+    assert!(
+        (w.background() / want - 1.0).abs() < 0.02,
+        "{} vs {want}",
+        w.background()
+    );
     // The sensors feel it: far from the plume the resistance sits below the unit's baseline.
     let m = &w.sensors()[0];
     assert!(m.resistance() < 0.97 * m.baseline());
@@ -242,9 +262,14 @@ fn closed_hall_builds_a_well_mixed_background() {
 /// The fast sensor type follows a step in about 0.1 s where the MOX unit needs seconds.
 #[test]
 fn fast_sensor_type_responds_in_a_tenth_of_a_second() {
-    let text = std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("../../config/scenarios/demo.yaml"))
-        .unwrap_or_default()
-        .replace("- {name: right, position: [0.15, -0.12, 0.3], r0: 47000.0}", "- {name: right, position: [0.15, -0.12, 0.3], kind: fast}");
+    let text = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("../../config/scenarios/demo.yaml"),
+    )
+    .unwrap_or_default()
+    .replace(
+        "- {name: right, position: [0.15, -0.12, 0.3], r0: 47000.0}",
+        "- {name: right, position: [0.15, -0.12, 0.3], kind: fast}",
+    );
     let s = Scenario::from_yaml_str(&text, "fast.yaml").unwrap_or_else(|e| panic!("{e}"));
     let w = world(&s, 1, 0);
     let (slow, fast) = (w.sensors()[0].params(), w.sensors()[1].params());
