@@ -161,6 +161,11 @@ impl Posterior {
     /// One update: `hits` odor hits during the update with the robot at `robot` [m, odom]
     /// under `kernel`, ln K0 from `table`.
     pub fn update(&mut self, robot: [f64; 2], kernel: &Kernel, hits: u32, table: &LnK0Table) {
+        self.update_with(robot, kernel, hits, |z| table.ln_k0(z));
+    }
+
+    /// [`Posterior::update`] with ln K0 from `ln_k0` (e.g. the exact [`crate::k0::ln_k0`]).
+    pub fn update_with(&mut self, robot: [f64; 2], kernel: &Kernel, hits: u32, ln_k0: impl Fn(f64) -> f64) {
         let k = f64::from(hits);
         let w = self.geometry.width;
         let mut best = f64::NEG_INFINITY;
@@ -169,7 +174,7 @@ impl Posterior {
             let dy = robot[1] - y;
             let row = &mut self.log_p[j * w..(j + 1) * w];
             for (i, (l, &x)) in row.iter_mut().zip(&self.xs).enumerate() {
-                let ln_mu = kernel.ln_mean_hits(robot[0] - x, dy, |z| table.ln_k0(z));
+                let ln_mu = kernel.ln_mean_hits(robot[0] - x, dy, &ln_k0);
                 *l += k * ln_mu - exp_or_zero(ln_mu);
                 if *l > best {
                     best = *l;
