@@ -149,6 +149,10 @@ fn bag_rows(args: &Args, base: &Params) -> Result<Vec<Row>> {
     };
     let mut rows = Vec::new();
     for path in &args.bags {
+        if crate::signals::requested() {
+            println!("{}: not read (interrupted)", path.display());
+            continue;
+        }
         let bag = Bag::open(path)?;
         let (features, truth, diag) = run_bag(args, base, &bag, &source).with_context(|| format!("bag {}", path.display()))?;
         let default_gap = if matches!(source, TruthSource::Csv(..)) { f64::INFINITY } else { 5.0 };
@@ -219,6 +223,9 @@ fn run_bag(args: &Args, base: &Params, bag: &Bag, source: &TruthSource) -> Resul
     let topics = std::iter::once(chem_topic.clone()).chain(truth_topic.clone()).collect();
     let mut last = None;
     for item in bag.messages(&ReadOptions { topics: Some(topics), ..Default::default() })? {
+        if crate::signals::requested() {
+            break;
+        }
         let m = item?;
         let t = m.log_time;
         if m.topic.as_ref() == chem_topic {

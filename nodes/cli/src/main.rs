@@ -5,7 +5,9 @@ use clap::{Parser, Subcommand};
 
 mod calibrate;
 mod check;
+mod progress;
 mod replay;
+mod signals;
 mod sim;
 mod truth;
 mod tune;
@@ -35,13 +37,27 @@ enum Command {
     Check(check::Args),
 }
 
-fn main() -> anyhow::Result<()> {
-    match Cli::parse().command {
+fn main() {
+    let cli = Cli::parse();
+    if let Err(e) = signals::install() {
+        eprintln!("warning: cannot catch SIGINT/SIGTERM ({e}); an interrupt will lose unfinished outputs");
+    }
+    let result = match cli.command {
         Command::Replay(a) => replay::run(a),
         Command::Bag(c) => replay::run_bag(c),
         Command::Sim(a) => sim::run(a),
         Command::Calibrate(a) => calibrate::run(a),
         Command::Tune(a) => tune::run(a),
         Command::Check(a) => check::run(a),
+    };
+    if let Err(e) = &result {
+        eprintln!("error: {e:#}");
+    }
+    if let Some(sig) = signals::caught() {
+        eprintln!("sillage: stopped by {}; the outputs hold what was done until then", signals::name(sig));
+        std::process::exit(128 + sig);
+    }
+    if result.is_err() {
+        std::process::exit(1);
     }
 }

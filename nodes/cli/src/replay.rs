@@ -22,6 +22,7 @@ use sillage_core::time::{nanos, secs};
 use sillage_stack::StackConfig;
 use std::path::PathBuf;
 use std::time::Instant;
+use crate::progress::Progress;
 
 /// Arguments of `sillage replay`.
 #[derive(clap::Args)]
@@ -138,7 +139,7 @@ pub fn run(args: Args) -> Result<()> {
     let mut messages = bag.messages(&read)?;
     let mut collector = summary::Collector::new(None);
     let mut plot = plots::PlotData::new(start, end);
-    let bar = progress_bar(&args, start, end);
+    let mut bar = if end - start >= 10 * sillage_core::time::SECOND { Progress::new("replay", "s bag time", secs(end - start), args.quiet) } else { None };
     let mut record = |r: &Record| -> Result<(), sillage_bag::BagError> {
         collector.record(r);
         plot.record(r);
@@ -148,13 +149,13 @@ pub fn run(args: Args) -> Result<()> {
         }
     };
     let mut progress = |t: sillage_core::Nanos| {
-        if let Some(b) = &bar {
-            b.set_position(((t - start).max(0) / 1_000_000) as u64);
+        if let Some(b) = bar.as_mut() {
+            b.set(secs((t - start).max(0)));
         }
     };
-    let outcome = sillage_bag::replay::replay(&mut ex, &mut messages, &inputs, &mut record, &mut progress);
-    if let Some(b) = &bar {
-        b.finish_and_clear();
+    let outcome = sillage_bag::replay::replay_until(&mut ex, &mut messages, &inputs, &mut record, &mut progress, crate::signals::flag());
+    if let Some(b) = bar {
+        b.finish();
     }
     if outcome.injected == 0 && outcome.error.is_none() {
         let mut want: Vec<String> = inputs.inject.iter().map(|(t, ty)| format!("{t} ({ty})")).collect();
@@ -167,6 +168,10 @@ pub fn run(args: Args) -> Result<()> {
 
     let mut outputs = Vec::new();
     let mut interrupted = outcome.error.as_ref().map(ToString::to_string);
+    if outcome.stopped {
+        let at = outcome.span.map_or_else(|| "before the first message".to_string(), |(_, t)| format!("at {:.3} s of bag time", secs(t - first)));
+        interrupted = crate::signals::interrupted_note().map(|n| format!("{n} ({at})"));
+    }
     match &written {
         Some(Ok(s)) => outputs.push(format!("{} ({} messages)", s.dir.display(), s.metadata.message_count)),
         Some(Err(e)) => interrupted = Some(interrupted.map_or_else(|| e.to_string(), |i| format!("{i}; then closing the output bag: {e}"))),
@@ -222,19 +227,6 @@ pub fn run(args: Args) -> Result<()> {
         anyhow::bail!("replay stopped early: {e} (outputs in {} hold what was computed until then)", out_dir.display());
     }
     Ok(())
-}
-
-fn progress_bar(args: &Args, start: sillage_core::Nanos, end: sillage_core::Nanos) -> Option<indicatif::ProgressBar> {
-    // Only for bags longer than a few seconds (and only on a terminal: indicatif hides itself
-    // otherwise).
-    if args.quiet || end - start < 10 * sillage_core::time::SECOND {
-        return None;
-    }
-    let bar = indicatif::ProgressBar::new(((end - start) / 1_000_000) as u64);
-    let style = indicatif::ProgressStyle::with_template("{spinner} replay [{bar:40}] {percent:>3}% bag time, {elapsed} elapsed, eta {eta}")
-        .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar());
-    bar.set_style(style.progress_chars("=> "));
-    Some(bar)
 }
 
 fn human_size(n: u64) -> String {

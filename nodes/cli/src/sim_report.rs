@@ -37,6 +37,8 @@ pub struct Report<'a> {
     pub summary: &'a Summary,
     /// Files written.
     pub outputs: Vec<String>,
+    /// Why the run ended before its last episode (an interrupt), if it did.
+    pub interrupted: Option<String>,
 }
 
 fn quantiles(name: &str, unit: &str, q: &Option<Quantiles>, out: &mut String) {
@@ -70,6 +72,7 @@ impl<'a> Report<'a> {
             real_time_factor: summary.sim_time / wall_s.max(1e-9),
             summary,
             outputs,
+            interrupted: crate::signals::interrupted_note().map(|n| format!("{n}: {} of {} episodes ran (0..{})", summary.episodes, args.episodes, summary.episodes)),
         }
     }
 
@@ -78,6 +81,9 @@ impl<'a> Report<'a> {
         let s = self.summary;
         let mut out = String::new();
         let _ = writeln!(out, "sillage sim: scenario '{}' ({})", self.scenario, self.scenario_file);
+        if let Some(i) = &self.interrupted {
+            let _ = writeln!(out, "INTERRUPTED: {i}");
+        }
         let _ = writeln!(
             out,
             "params {}, strategy {}, seeds {}..{}, time limit {:.0} s, success radius {:.2} m",
