@@ -308,6 +308,7 @@ fn bag_info_json(s: &Scan) -> serde_json::Value {
         "start_s": opt_stamp(s.span.map(|x| x.0)), "end_s": opt_stamp(s.span.map(|x| x.1)),
         "start_utc": s.span.map(|x| utc_text(x.0)),
         "duration_ns": s.span.map(|x| x.1 - x.0),
+        "duration_s": s.span.map(|x| secs(x.1 - x.0)),
         "topics": s.topics.iter().map(|t| serde_json::json!({
             "name": t.name, "type": t.type_name, "encoding": t.encoding, "read_by_sillage": t.known,
             "count": t.count, "metadata_count": t.expected,
