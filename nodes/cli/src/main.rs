@@ -51,7 +51,7 @@ fn main() {
         Command::Check(a) => check::run(a),
     };
     if let Err(e) = &result {
-        eprintln!("error: {e:#}");
+        eprintln!("error: {}", error_text(e));
     }
     if let Some(sig) = signals::caught() {
         eprintln!("sillage: stopped by {}; the outputs hold what was done until then", signals::name(sig));
@@ -60,4 +60,17 @@ fn main() {
     if result.is_err() {
         std::process::exit(1);
     }
+}
+
+/// An error and its causes on one line, each cause once (a typed error often repeats its
+/// source's text in its own).
+fn error_text(e: &anyhow::Error) -> String {
+    let mut text = e.to_string();
+    for cause in e.chain().skip(1) {
+        let c = cause.to_string();
+        if !text.contains(&c) {
+            text = format!("{text}: {c}");
+        }
+    }
+    text
 }
