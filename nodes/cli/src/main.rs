@@ -5,6 +5,7 @@ use clap::{Parser, Subcommand};
 
 mod calibrate;
 mod check;
+mod palette;
 mod progress;
 mod replay;
 mod signals;

@@ -73,6 +73,17 @@ pub struct Args {
     pub allow_partial: bool,
 }
 
+/// The arbiter's speed caps (`guard.max_linear`, `guard.max_reverse`, `guard.max_angular`), read
+/// from the running node's parameters.
+fn guard_caps(ex: &sillage_core::executor::Executor) -> Option<plots::Caps> {
+    let names = ex.node_names();
+    let i = names.iter().position(|n| n.rsplit('/').next() == Some("arbiter"))?;
+    let p = ex.node(i)?.params_yaml();
+    let g = p.get("guard")?;
+    let f = |k: &str| g.get(k).and_then(serde_yaml::Value::as_f64);
+    Some(plots::Caps { max_linear: f("max_linear")?, max_reverse: f("max_reverse")?, max_angular: f("max_angular")? })
+}
+
 /// Damage met and, when the whole bag was read, topic counts short of metadata.yaml.
 fn integrity_lines(bag: &Bag, report: &sillage_bag::ReadReport, whole: bool) -> Vec<String> {
     let mut out: Vec<String> = report.damage.iter().map(ToString::to_string).collect();
@@ -164,6 +175,7 @@ pub fn run(args: Args) -> Result<()> {
     let mut messages = bag.messages(&read)?;
     let mut collector = summary::Collector::new(None);
     let mut plot = plots::PlotData::new(start, end);
+    plot.set_caps(guard_caps(&ex));
     let mut bar = if end - start >= 10 * sillage_core::time::SECOND { Progress::new("replay", "s bag time", secs(end - start), args.quiet) } else { None };
     let mut record = |r: &Record| -> Result<(), sillage_bag::BagError> {
         collector.record(r);
