@@ -26,6 +26,7 @@ mod gate;
 use anyhow::{bail, Context, Result};
 use plotters::coord::Shift;
 use plotters::prelude::*;
+use crate::palette;
 use sillage_bag::{bag_info, Bag, ReadOptions};
 use sillage_core::any::normalize_type_name;
 use sillage_core::executor::{resolve_topic, Executor, Placement, Record};
@@ -381,7 +382,7 @@ where
     let rate_max = points.iter().map(|p| p.bout_rate).fold(0.0f64, f64::max).max(1e-3) * 1.05;
     let d_max = points.iter().map(|p| p.distance).chain(r.loo.iter().copied()).fold(0.0f64, f64::max).max(1e-3) * 1.1;
     let mut chart = panel(&left, "distance against bout rate", (rate_max, "bout rate [Hz]"), (d_max, "true distance [m]"))?;
-    chart.draw_series(points.iter().map(|p| Circle::new((p.bout_rate, p.distance), 3, BLUE.filled()))).map_err(plot_err)?;
+    chart.draw_series(points.iter().map(|p| Circle::new((p.bout_rate, p.distance), 3, palette::BLUE.filled()))).map_err(plot_err)?;
     // The model (at the median amplitude when it uses the amplitude).
     let mut amps: Vec<f64> = points.iter().map(|p| p.bout_amplitude).filter(|a| *a > 0.0).collect();
     amps.sort_by(f64::total_cmp);
@@ -390,12 +391,12 @@ where
         let x = rate_max * k as f64 / 200.0;
         (x, f.predict_ln(x, amp).exp().min(d_max))
     });
-    chart.draw_series(LineSeries::new(curve, RED.stroke_width(2))).map_err(plot_err)?;
+    chart.draw_series(LineSeries::new(curve, palette::VERMILLION.stroke_width(2))).map_err(plot_err)?;
 
     let mut chart = panel(&right, "leave-one-out estimate against truth", (d_max, "true distance [m]"), (d_max, "estimated distance [m]"))?;
     chart.draw_series(LineSeries::new([(0.0, 0.0), (d_max, d_max)], BLACK.stroke_width(1))).map_err(plot_err)?;
     chart
-        .draw_series(points.iter().zip(&r.loo).map(|(p, e)| Circle::new((p.distance, e.min(d_max)), 3, BLUE.filled())))
+        .draw_series(points.iter().zip(&r.loo).map(|(p, e)| Circle::new((p.distance, e.min(d_max)), 3, palette::BLUE.filled())))
         .map_err(plot_err)?;
     area.present().map_err(plot_err)?;
     Ok(())

@@ -41,7 +41,7 @@ pub struct Report<'a> {
     pub interrupted: Option<String>,
 }
 
-fn quantiles(name: &str, unit: &str, q: &Option<Quantiles>, out: &mut String) {
+fn quantiles(name: &str, unit: &str, q: &Option<Quantiles>, none: &str, out: &mut String) {
     match q {
         Some(q) => {
             let _ = writeln!(
@@ -51,7 +51,7 @@ fn quantiles(name: &str, unit: &str, q: &Option<Quantiles>, out: &mut String) {
             );
         }
         None => {
-            let _ = writeln!(out, "{name:<22} none (no successful episode)");
+            let _ = writeln!(out, "{name:<22} none ({none})");
         }
     }
 }
@@ -108,14 +108,14 @@ impl<'a> Report<'a> {
         let _ = writeln!(out, "reached the source     {}/{}  (Wilson 95 %: {:.1} - {:.1} %; robot within the radius at some time)", s.reached, s.episodes, 100.0 * rlo, 100.0 * rhi);
         let outcomes: Vec<String> = s.outcomes.iter().map(|(k, v)| format!("{k} {v}")).collect();
         let _ = writeln!(out, "outcomes               {}", outcomes.join(", "));
-        quantiles("time to declare", " s", &s.time_to_declare, &mut out);
-        quantiles("path ratio", "", &s.path_ratio, &mut out);
-        quantiles("time to reach", " s", &s.time_to_reach, &mut out);
-        quantiles("path ratio to reach", "", &s.reach_path_ratio, &mut out);
-        quantiles("closest approach", " m", &s.min_distance, &mut out);
+        quantiles("time to declare", " s", &s.time_to_declare, "no successful episode", &mut out);
+        quantiles("path ratio", "", &s.path_ratio, "no successful episode", &mut out);
+        quantiles("time to reach", " s", &s.time_to_reach, "no episode reached a source", &mut out);
+        quantiles("path ratio to reach", "", &s.reach_path_ratio, "no episode reached a source", &mut out);
+        quantiles("closest approach", " m", &s.min_distance, "no episode", &mut out);
         let _ = writeln!(
             out,
-            "false declarations {}, halts {}, obstacle stops {}, collisions {} (in {} episodes)",
+            "false declarations {}, halts {}, commands stopped for obstacles {} (control ticks), collisions {} (in {} episodes)",
             s.false_declarations, s.halts, s.obstacle_stops, s.collisions, s.episodes_with_collisions
         );
         for (reason, n) in &s.halt_reasons {

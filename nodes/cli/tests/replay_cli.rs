@@ -43,7 +43,7 @@ fn replay_writes_bag_summary_and_plots_deterministically() {
     let count = |t: &str| s["topics"].as_array().expect("topics").iter().find(|x| x["topic"] == t).map(|x| x["count"].as_u64().unwrap_or(0));
     assert_eq!(count("/chem"), Some(3000));
     assert_eq!(count("/odom"), Some(3000));
-    for p in ["chem", "bearing", "plume", "modes", "trajectory"] {
+    for p in ["chem", "bearing", "plume", "cmd_vel", "wind", "modes", "trajectory"] {
         let f = out.join("plots").join(format!("{p}.svg"));
         assert!(std::fs::metadata(&f).map(|m| m.len() > 1000).unwrap_or(false), "{}", f.display());
     }
