@@ -148,3 +148,45 @@ fn sigterm_during_sim_keeps_the_finished_episodes() {
     }
     let _ = std::fs::remove_dir_all(&out);
 }
+
+#[test]
+fn sigint_during_tune_keeps_the_finished_cases_and_a_rerun_resumes() {
+    let dir = tmp("tune");
+    std::fs::create_dir_all(&dir).expect("dir");
+    let scenario = repo().join("config/scenarios/demo.yaml");
+    let sweep = dir.join("sweep.yaml");
+    std::fs::write(
+        &sweep,
+        format!(
+            "name: interrupted\ndesign: {{kind: grid}}\nparameters:\n  - {{key: arbiter.surge.speed, min: 0.15, max: 0.35, steps: 5}}\n\
+             evaluate:\n  scenarios: [{}]\n  seeds: 8\n  time_limit: 6.0\nobjective:\n  - {{metric: success, stat: rate, weight: 1.0}}\n",
+            scenario.display()
+        ),
+    )
+    .expect("sweep");
+    let out = dir.join("out");
+    let run = || {
+        Command::new(env!("CARGO_BIN_EXE_sillage"))
+            .args(["tune", sweep.to_str().expect("utf-8"), "--jobs", "2", "--no-plots", "--out", out.to_str().expect("utf-8")])
+            .stdout(Stdio::null())
+            .stderr(Stdio::piped())
+            .spawn()
+            .expect("spawns")
+    };
+    let (stderr, code) = signal_mid_run(run(), libc::SIGINT, "tune");
+    assert_eq!(code, Some(130), "{stderr}");
+    let text = std::fs::read_to_string(out.join("summary.txt")).expect("summary.txt");
+    assert!(text.starts_with("INTERRUPTED: ") && text.contains("SIGINT") && text.contains("of the shard's 40 cases"), "{text}");
+    let done = std::fs::read_to_string(out.join("results.jsonl")).expect("results").lines().count();
+    assert!((4..40).contains(&done), "{done} cases kept");
+    assert!(out.join("ranking.csv").is_file());
+    // The same command resumes: it skips what is there and finishes the rest.
+    let o = Command::new(env!("CARGO_BIN_EXE_sillage"))
+        .args(["tune", sweep.to_str().expect("utf-8"), "--jobs", "2", "--no-plots", "--quiet", "--out", out.to_str().expect("utf-8")])
+        .output()
+        .expect("runs");
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(String::from_utf8_lossy(&o.stderr).contains(&format!("{done} already done")), "{}", String::from_utf8_lossy(&o.stderr));
+    assert_eq!(std::fs::read_to_string(out.join("results.jsonl")).expect("results").lines().count(), 40);
+    let _ = std::fs::remove_dir_all(&dir);
+}
