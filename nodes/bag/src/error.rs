@@ -107,3 +107,45 @@ impl std::fmt::Display for Warning {
         f.write_str(&self.message)
     }
 }
+
+/// What kind of damage a read met.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum DamageKind {
+    /// The file ends before its end records (a recording or copy cut off).
+    Truncated,
+    /// A chunk could not be read (bad CRC, bad compression, cut, bad index entry); skipped.
+    Chunk,
+    /// The records from here on cannot be parsed; reading the file stopped.
+    Unreadable,
+}
+
+/// Damage found while reading a file: where, what, and the messages known to be lost there.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Damage {
+    /// The file.
+    pub path: PathBuf,
+    /// Byte offset of the damaged chunk, or where the file stops making sense [bytes].
+    pub offset: u64,
+    /// Its kind.
+    pub kind: DamageKind,
+    /// What the reader said.
+    pub reason: String,
+    /// Messages lost there per topic, when the file's index says (a skipped chunk).
+    pub lost: Vec<(String, u64)>,
+}
+
+impl std::fmt::Display for Damage {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        let what = match self.kind {
+            DamageKind::Truncated => "file cut off",
+            DamageKind::Chunk => "damaged chunk skipped",
+            DamageKind::Unreadable => "unreadable from here on",
+        };
+        write!(f, "{}: byte {}: {what} ({})", self.path.display(), self.offset, self.reason)?;
+        if !self.lost.is_empty() {
+            let l: Vec<String> = self.lost.iter().map(|(t, n)| format!("{t} {n}")).collect();
+            write!(f, "; lost: {}", l.join(", "))?;
+        }
+        Ok(())
+    }
+}

@@ -7,7 +7,8 @@
 //!   [`BagMessage`] (log time [ns], topic, type, [`Msg`]) in log-time order, with a
 //!   [`ReadReport`] of skipped topics and warnings;
 //! - [`BagWriter`]: an MCAP bag folder with `metadata.yaml`;
-//! - [`bag_info`]: topics, types, counts, span and storage;
+//! - [`bag_info`]: topics, types, counts, span and storage from the files' indexes;
+//! - [`scan::scan`]: a full read with per-topic rates and gaps and an integrity check;
 //! - [`replay`]: drives an [`sillage_core::executor::Executor`] from a bag.
 //!
 //! [`Msg`]: sillage_core::Msg
@@ -26,12 +27,13 @@ pub mod mcap_read;
 pub mod metadata;
 pub mod reader;
 pub mod replay;
+pub mod scan;
 pub mod schema;
 pub mod source;
 pub mod sqlite_read;
 pub mod writer;
 
-pub use error::{BagError, Location, Warning};
+pub use error::{BagError, Damage, DamageKind, Location, Warning};
 pub use info::{bag_info, BagInfo, FileSummary, TopicInfo};
 pub use metadata::{Metadata, QosProfile};
 pub use reader::{Bag, BagFile, BagMessage, Messages, RawMessage, ReadOptions, ReadReport, SkipReason, TopicReport};

@@ -7,7 +7,7 @@
 //! that was cut off) or without chunk indexes (unchunked files), the mcap crate's streaming
 //! message reader reads the file front to back; a cut-off end is then a warning, not an error.
 
-use crate::error::{BagError, Location};
+use crate::error::{BagError, Damage, DamageKind, Location};
 use crate::mcap_check::{check_record, check_records};
 use crate::source::{Head, Source, TopicDecl};
 use mcap::records::{op, ChunkIndex};
@@ -106,6 +106,9 @@ struct FileCtx<R> {
     channels: HashMap<u16, TopicDecl>,
     warnings: Vec<String>,
     offset_read: u64,
+    /// Skip damaged chunks and stop quietly at damage, recording it in `damage`.
+    salvage: bool,
+    damage: Vec<Damage>,
 }
 
 /// A cursor over one MCAP file.
@@ -221,8 +224,8 @@ impl<R: Read + Seek> McapSource<R> {
             for ci in &chunks {
                 let buf = spare_rx.try_recv().unwrap_or_default();
                 let r = loader.load(ci, &mut raw, buf);
-                let failed = r.is_err();
-                if tx.send(r).is_err() || failed {
+                // A failed chunk is sent too: in salvage mode the reader skips it and goes on.
+                if tx.send(r).is_err() {
                     return;
                 }
             }
@@ -280,8 +283,14 @@ impl<R: Read + Seek> McapSource<R> {
             }
         };
         let loader = ChunkLoader { path, file, file_len, start, end, limit };
-        let ctx = FileCtx { loader, channels, warnings, offset_read: 0 };
+        let ctx = FileCtx { loader, channels, warnings, offset_read: 0, salvage: false, damage: Vec::new() };
         Ok(McapSource { ctx, summary, mode, want_prefetch: false })
+    }
+
+    /// In salvage mode a damaged chunk is skipped and damage that ends the file's readable part
+    /// ends the read; both are recorded ([`Source::take_damage`]) instead of being errors.
+    pub fn set_salvage(&mut self, on: bool) {
+        self.ctx.salvage = on;
     }
 
     /// The summary section, when the file has one.
@@ -474,7 +483,16 @@ impl<R: Read + Seek> FileCtx<R> {
             let min = ix.active.iter().filter_map(LoadedChunk::head_time).min();
             match ix.chunks.get(ix.next) {
                 Some(ci) if min.is_none_or(|m| ci.message_start_time <= m) => {
-                    let c = self.next_chunk(ix)?;
+                    let ci = ci.clone();
+                    let c = match self.next_chunk(ix) {
+                        Ok(c) => c,
+                        Err(e) if self.salvage => {
+                            let lost = self.lost_in_chunk(&ci);
+                            self.damage.push(Damage { path: self.loader.path.clone(), offset: ci.chunk_start_offset, kind: DamageKind::Chunk, reason: e.to_string(), lost });
+                            continue;
+                        }
+                        Err(e) => return Err(e),
+                    };
                     if c.entries.is_empty() {
                         Self::recycle(ix, c.buf);
                     } else {
@@ -493,6 +511,26 @@ impl<R: Read + Seek> FileCtx<R> {
             .min()
             .map(|(_, _, i)| i);
         Ok(ix.current.is_some())
+    }
+
+    /// Messages per topic in a chunk, from its message index records (they sit after the chunk
+    /// and may have survived); empty when they cannot be read.
+    fn lost_in_chunk(&mut self, ci: &ChunkIndex) -> Vec<(String, u64)> {
+        let mut out = Vec::new();
+        for (ch, off) in &ci.message_index_offsets {
+            let mut head = [0u8; 1 + 8 + 2 + 4];
+            let ok = self.loader.file.seek(SeekFrom::Start(*off)).is_ok() && self.loader.file.read_exact(&mut head).is_ok();
+            if !ok || head[0] != op::MESSAGE_INDEX {
+                continue;
+            }
+            let mut n4 = [0u8; 4];
+            n4.copy_from_slice(&head[11..15]);
+            // Each entry: log_time u64, offset u64 (MCAP spec, Message Index record).
+            let n = u64::from(u32::from_le_bytes(n4)) / 16;
+            let name = self.channels.get(ch).map_or_else(|| format!("(channel {ch})"), |d| d.name.clone());
+            out.push((name, n));
+        }
+        out
     }
 
     fn advance_linear(&mut self, lin: &mut Linear) -> Result<bool, BagError> {
@@ -540,7 +578,14 @@ impl<R: Read + Seek> FileCtx<R> {
                         return Ok(true);
                     }
                     op::CHUNK => {
-                        let c = self.loader.decode_chunk(data, self.offset_read, Vec::new())?;
+                        let c = match self.loader.decode_chunk(data, self.offset_read, Vec::new()) {
+                            Ok(c) => c,
+                            Err(e) if self.salvage => {
+                                self.damage.push(Damage { path: self.loader.path.clone(), offset: self.offset_read, kind: DamageKind::Chunk, reason: e.to_string(), lost: Vec::new() });
+                                continue;
+                            }
+                            Err(e) => return Err(e),
+                        };
                         for (id, d) in &c.learnt {
                             self.channels.entry(*id).or_insert_with(|| d.clone());
                         }
@@ -578,6 +623,11 @@ impl<R: Read + Seek> FileCtx<R> {
                                 "{}: file ends early (cut off near {at}: {e}); the messages before that were read",
                                 self.loader.path.display()
                             ));
+                            self.damage.push(Damage { path: self.loader.path.clone(), offset: self.offset_read, kind: DamageKind::Truncated, reason: e.to_string(), lost: Vec::new() });
+                            Ok(false)
+                        }
+                        other if self.salvage => {
+                            self.damage.push(Damage { path: self.loader.path.clone(), offset: self.offset_read, kind: DamageKind::Unreadable, reason: other.to_string(), lost: Vec::new() });
                             Ok(false)
                         }
                         other => Err(mcap_err(&self.loader.path, at, other)),
@@ -647,5 +697,9 @@ impl<R: Read + Seek> Source for McapSource<R> {
 
     fn take_warnings(&mut self) -> Vec<String> {
         std::mem::take(&mut self.ctx.warnings)
+    }
+
+    fn take_damage(&mut self) -> Vec<Damage> {
+        std::mem::take(&mut self.ctx.damage)
     }
 }

@@ -147,6 +147,8 @@ pub struct ReadReport {
     pub duplicates: u64,
     /// Messages whose log time was before the previous one's.
     pub out_of_order: u64,
+    /// Damage met and read around (not strict): skipped chunks, cut-off files.
+    pub damage: Vec<crate::error::Damage>,
 }
 
 impl ReadReport {
@@ -256,7 +258,11 @@ impl Bag {
     /// Opens a cursor over one file.
     pub fn open_file(file: &BagFile, opts: &ReadOptions) -> Result<Box<dyn Source>, BagError> {
         Ok(match file.storage {
-            Storage::Mcap => Box::new(McapSource::open(&file.path, opts.start, opts.end)?),
+            Storage::Mcap => {
+                let mut s = McapSource::open(&file.path, opts.start, opts.end)?;
+                s.set_salvage(!opts.strict);
+                Box::new(s)
+            }
             Storage::Sqlite3 => Box::new(SqliteSource::open(&file.path, opts.start, opts.end)?),
         })
     }
@@ -410,6 +416,7 @@ impl Messages {
         for w in self.active[i].source.take_warnings() {
             self.report.warn(w);
         }
+        self.report.damage.extend(self.active[i].source.take_damage());
     }
 
     /// Moves to the next message of any file: (active index, topic index).
@@ -446,6 +453,7 @@ impl Messages {
                 for w in warnings {
                     self.report.warn(w);
                 }
+                self.report.damage.extend(source.take_damage());
                 if more? {
                     let time = source.head().map_or(Nanos::MIN, |h| h.log_time);
                     self.active.push(Active { order, time, source, map: HashMap::new(), small: Vec::new() });

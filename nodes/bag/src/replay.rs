@@ -13,6 +13,7 @@ use crate::reader::Messages;
 use sillage_core::executor::{Executor, Record, TopicId};
 use sillage_core::Nanos;
 use std::collections::{BTreeMap, HashMap, HashSet};
+use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::Arc;
 
 /// Which bag topics feed the graph.
@@ -46,6 +47,8 @@ pub struct Outcome {
     pub span: Option<(Nanos, Nanos)>,
     /// Why the replay stopped early, if it did.
     pub error: Option<BagError>,
+    /// The stop flag ended the replay before the end of the bag.
+    pub stopped: bool,
 }
 
 /// Replays `messages` into `ex`; `record` gets every delivered message, `progress` the current
@@ -56,6 +59,19 @@ pub fn replay(
     inputs: &Inputs,
     record: &mut dyn FnMut(&Record) -> Result<(), BagError>,
     progress: &mut dyn FnMut(Nanos),
+) -> Outcome {
+    replay_until(ex, messages, inputs, record, progress, &AtomicBool::new(false))
+}
+
+/// As [`replay`], stopping before the next bag message once `stop` is set (an interrupt);
+/// what was injected until then is delivered and [`Outcome::stopped`] says so.
+pub fn replay_until(
+    ex: &mut Executor,
+    messages: &mut Messages,
+    inputs: &Inputs,
+    record: &mut dyn FnMut(&Record) -> Result<(), BagError>,
+    progress: &mut dyn FnMut(Nanos),
+    stop: &AtomicBool,
 ) -> Outcome {
     let mut out = Outcome::default();
     let sink_error: std::cell::RefCell<Option<BagError>> = std::cell::RefCell::new(None);
@@ -70,7 +86,12 @@ pub fn replay(
     let mut last = None;
     // What to do with each bag topic, decided once: the reader hands out one `Arc` per topic.
     let mut seen: Vec<(Arc<str>, &'static str, Result<TopicId, NotInjected>)> = Vec::new();
-    for item in messages.by_ref() {
+    loop {
+        if stop.load(Ordering::Relaxed) {
+            out.stopped = true;
+            break;
+        }
+        let Some(item) = messages.next() else { break };
         let m = match item {
             Ok(m) => m,
             Err(e) => {

@@ -2,6 +2,7 @@
 //! in log-time order, one message at a time, with bounded memory.
 
 use crate::error::{BagError, Location};
+
 use std::path::Path;
 
 /// A topic (MCAP channel, sqlite3 `topics` row) as a file declares it.
@@ -51,6 +52,10 @@ pub trait Source {
     fn head(&self) -> Option<Head<'_>>;
     /// Things tolerated so far (truncation at the end of a file, ...), drained.
     fn take_warnings(&mut self) -> Vec<String> {
+        Vec::new()
+    }
+    /// Damage met so far (in salvage mode: skipped chunks, a cut-off end), drained.
+    fn take_damage(&mut self) -> Vec<crate::error::Damage> {
         Vec::new()
     }
 }

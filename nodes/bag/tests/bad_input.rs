@@ -114,7 +114,7 @@ fn truncated_file_reads_up_to_the_cut_with_a_warning() {
 }
 
 #[test]
-fn corrupt_chunk_fails_its_crc_with_file_and_offset() {
+fn corrupt_chunk_fails_its_crc_with_file_and_offset_in_strict_mode_and_is_skipped_otherwise() {
     let d = tmp("crc");
     let file = wind_bag(&d.join("b"), 500, None);
     let mut bytes = std::fs::read(&file).expect("read");
@@ -124,7 +124,7 @@ fn corrupt_chunk_fails_its_crc_with_file_and_offset() {
     let at = (ci.chunk_start_offset + ci.chunk_length - 40) as usize;
     bytes[at] ^= 0xff;
     std::fs::write(&file, &bytes).expect("write");
-    let (got, _, err) = read(&d.join("b"), false);
+    let (got, _, err) = read(&d.join("b"), true);
     match err {
         Some(BagError::ChunkCrc { path, offset, saved, computed }) => {
             assert_eq!(path, file);
@@ -134,6 +134,18 @@ fn corrupt_chunk_fails_its_crc_with_file_and_offset() {
         other => panic!("expected a CRC error, got {other:?}"),
     }
     assert!(!got.is_empty(), "the first chunk was read before the bad one");
+    // Not strict: the bad chunk is skipped, the rest read, and the loss is located and counted
+    // from the chunk's message index (records outside the chunk), which must agree with what
+    // is missing from the 500 written.
+    let (got, report, err) = read(&d.join("b"), false);
+    assert!(err.is_none(), "{err:?}");
+    assert_eq!(report.damage.len(), 1, "{:?}", report.damage);
+    let dmg = &report.damage[0];
+    assert_eq!((dmg.kind, dmg.offset), (sillage_bag::DamageKind::Chunk, ci.chunk_start_offset));
+    let lost: u64 = dmg.lost.iter().map(|l| l.1).sum();
+    assert_eq!(dmg.lost.iter().map(|l| l.0.as_str()).collect::<Vec<_>>(), vec!["/wind"]);
+    assert_eq!(got.len() as u64 + lost, 500);
+    assert!(lost > 0 && got.last().map(|m| m.0) == Some(1_000_000_000 + 499 * 10_000_000), "read on after the bad chunk");
 }
 
 #[test]

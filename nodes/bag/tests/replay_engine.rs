@@ -3,7 +3,7 @@
 
 #![allow(clippy::result_large_err)] // sillage_bag errors name file, topic and offset
 
-use sillage_bag::replay::{replay, Inputs, NotInjected};
+use sillage_bag::replay::{replay, replay_until, Inputs, NotInjected};
 use sillage_bag::{Bag, BagError, BagWriter, QosProfile, ReadOptions, WriterOptions};
 use sillage_core::executor::{Executor, Record};
 use sillage_core::msg::*;
@@ -98,4 +98,31 @@ fn a_failing_record_callback_stops_the_replay_and_says_why() {
     let e = out.error.expect("stopped");
     assert!(e.to_string().contains("disk full"), "{e}");
     assert!(out.injected < 20, "{}", out.injected);
+}
+
+#[test]
+fn a_stop_request_ends_the_replay_after_the_message_in_hand() {
+    let dir = bag("stop");
+    let mut ex = Executor::new();
+    ex.add(Box::new(Echo)).expect("adds");
+    let b = Bag::open(&dir).expect("opens");
+    let mut msgs = b.messages(&ReadOptions::default()).expect("reads");
+    let stop = std::sync::atomic::AtomicBool::new(false);
+    let mut seen = 0;
+    let mut rec = |r: &Record| -> Result<(), BagError> {
+        if r.topic == "/seen" {
+            seen += 1;
+            if seen == 5 {
+                stop.store(true, std::sync::atomic::Ordering::Relaxed);
+            }
+        }
+        Ok(())
+    };
+    let out = replay_until(&mut ex, &mut msgs, &inputs(), &mut rec, &mut |_| {}, &stop);
+    assert!(out.stopped && out.error.is_none());
+    // The fifth wind message's echo is delivered while the sixth is injected; the loop then
+    // sees the flag before reading the seventh bag record triple.
+    assert!((5..20).contains(&out.injected), "{}", out.injected);
+    let full = replay(&mut Executor::new(), &mut b.messages(&ReadOptions::default()).expect("reads"), &inputs(), &mut |_| Ok(()), &mut |_| {});
+    assert!(!full.stopped);
 }

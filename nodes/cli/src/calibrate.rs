@@ -16,11 +16,17 @@
 //!
 //! Outputs: the fit on stdout, a plot (`--plot`, SVG unless the name ends in .png; default next
 //! to `--out`), the parameter file `--out` (the base parameters with the fitted `distance`
-//! group), and with `--save-features` the labelled windows as a features CSV.
+//! group, after a provenance header), and with `--save-features` the labelled windows as a
+//! features CSV. A fit that fails the quality gate (see `calibrate_gate.rs`) is not written
+//! unless `--force`; an interrupted run prints and plots its fit but writes no parameter file.
+
+#[path = "calibrate_gate.rs"]
+mod gate;
 
 use anyhow::{bail, Context, Result};
 use plotters::coord::Shift;
 use plotters::prelude::*;
+use crate::palette;
 use sillage_bag::{bag_info, Bag, ReadOptions};
 use sillage_core::any::normalize_type_name;
 use sillage_core::executor::{resolve_topic, Executor, Placement, Record};
@@ -55,9 +61,25 @@ pub struct Args {
     /// ChemSample topic in the bags (default: the only one).
     #[arg(long)]
     pub chem_topic: Option<String>,
-    /// Source position for an Odometry truth topic: X,Y[,Z] in the odometry frame [m].
-    #[arg(long, value_delimiter = ',', num_args = 2..=3)]
+    /// Source position for an Odometry truth topic in the odometry frame [m]: `X Y [Z]` or
+    /// `X,Y[,Z]`.
+    #[arg(long = "source", value_name = "X Y [Z]", num_args = 1..=3, allow_negative_numbers = true)]
+    pub source_values: Vec<String>,
+    /// The parsed `--source`.
+    #[arg(skip)]
     pub source: Option<Vec<f64>>,
+    /// Write the parameter file even when the fit fails the quality gate (the header says so).
+    #[arg(long)]
+    pub force: bool,
+    /// Quality gate: smallest R^2 of the fit in ln space.
+    #[arg(long, default_value_t = 0.5)]
+    pub min_r2: f64,
+    /// Quality gate: largest leave-one-out mean relative error (0.5 = 50 %).
+    #[arg(long, default_value_t = 0.5)]
+    pub max_loo_error: f64,
+    /// Quality gate: smallest ratio of the 95th to the 5th percentile of the truth distances.
+    #[arg(long, default_value_t = 2.0)]
+    pub min_distance_ratio: f64,
     /// Fit ln(bout amplitude) too.
     #[arg(long)]
     pub use_amplitude: bool,
@@ -86,7 +108,10 @@ struct Row {
 }
 
 /// Runs the subcommand.
-pub fn run(args: Args) -> Result<()> {
+pub fn run(mut args: Args) -> Result<()> {
+    let (source, more_bags) = gate::parse_source(&args.source_values)?;
+    args.source = source;
+    args.bags.extend(more_bags);
     let fqn = resolve_topic(NODE_NAME, &args.namespace, NODE_NAME);
     let base: Params = match &args.params {
         Some(p) => sillage_core::params::load_file(p, &fqn)?,
@@ -106,7 +131,33 @@ pub fn run(args: Args) -> Result<()> {
 
     let plot = args.plot.clone().unwrap_or_else(|| args.out.with_extension("svg"));
     draw(&plot, &points, &report).with_context(|| format!("drawing {}", plot.display()))?;
-    let text = calibration::parameter_file(&base, &report.fit);
+    println!("plot: {}", plot.display());
+    let distances: Vec<f64> = points.iter().map(|p| p.distance).collect();
+    let thresholds = gate::Gate { min_r2: args.min_r2, max_loo_relative: args.max_loo_error, min_distance_ratio: args.min_distance_ratio };
+    let refusals = gate::judge(&report.fit, &distances, &thresholds);
+    for r in &refusals {
+        println!("quality gate: {r}");
+    }
+    if let Some(note) = crate::signals::interrupted_note() {
+        bail!("{note}: the fit above covers the windows read until then; no parameter file written");
+    }
+    if !refusals.is_empty() && !args.force {
+        bail!("the fit fails the quality gate ({} reason(s) above); {} not written (--force writes it anyway, marked in its header)", refusals.len(), args.out.display());
+    }
+    let inputs: Vec<&Path> = match &args.features {
+        Some(csv) => vec![csv.as_path()],
+        None => args.bags.iter().map(PathBuf::as_path).chain(args.truth.as_deref().map(Path::new).filter(|p| p.is_file())).collect(),
+    };
+    let now_ns = std::time::SystemTime::now().duration_since(std::time::UNIX_EPOCH).map_or(0, |d| d.as_nanos() as i64);
+    let head = gate::header(&gate::Provenance {
+        inputs: inputs.iter().map(|p| gate::input_line(p)).collect(),
+        fit: &report.fit,
+        distances: &distances,
+        refusals: &refusals,
+        forced: args.force,
+        now_ns,
+    });
+    let text = head + &calibration::parameter_file(&base, &report.fit);
     // The node must load what is written, as it is.
     let back: Params = sillage_core::params::load_str(&text, &args.out.display().to_string(), &fqn)?;
     anyhow::ensure!(back.distance == report.fit.to_params(), "the written parameter file does not load back to the fit");
@@ -122,7 +173,6 @@ pub fn run(args: Args) -> Result<()> {
         std::fs::write(csv, s).with_context(|| format!("writing {}", csv.display()))?;
         println!("labelled windows: {}", csv.display());
     }
-    println!("plot: {}", plot.display());
     println!("parameters: {} (node key '{NODE_NAME}')", args.out.display());
     Ok(())
 }
@@ -149,6 +199,10 @@ fn bag_rows(args: &Args, base: &Params) -> Result<Vec<Row>> {
     };
     let mut rows = Vec::new();
     for path in &args.bags {
+        if crate::signals::requested() {
+            println!("{}: not read (interrupted)", path.display());
+            continue;
+        }
         let bag = Bag::open(path)?;
         let (features, truth, diag) = run_bag(args, base, &bag, &source).with_context(|| format!("bag {}", path.display()))?;
         let default_gap = if matches!(source, TruthSource::Csv(..)) { f64::INFINITY } else { 5.0 };
@@ -198,7 +252,7 @@ fn run_bag(args: &Args, base: &Params, bag: &Bag, source: &TruthSource) -> Resul
         TruthSource::Topic(t) => {
             let list = crate::truth::topic_list(&info);
             anyhow::ensure!(type_of(t).is_some(), "--truth {t}: neither a file nor a topic of the bag (topics: {list})");
-            crate::truth::truth_kind(&info, t, args.source.is_some(), "--truth", "--source X,Y[,Z]")?;
+            crate::truth::truth_kind(&info, t, args.source.is_some(), "--truth", "--source X Y [Z]")?;
             Some(t.clone())
         }
         TruthSource::Csv(..) => None,
@@ -219,6 +273,9 @@ fn run_bag(args: &Args, base: &Params, bag: &Bag, source: &TruthSource) -> Resul
     let topics = std::iter::once(chem_topic.clone()).chain(truth_topic.clone()).collect();
     let mut last = None;
     for item in bag.messages(&ReadOptions { topics: Some(topics), ..Default::default() })? {
+        if crate::signals::requested() {
+            break;
+        }
         let m = item?;
         let t = m.log_time;
         if m.topic.as_ref() == chem_topic {
@@ -325,7 +382,7 @@ where
     let rate_max = points.iter().map(|p| p.bout_rate).fold(0.0f64, f64::max).max(1e-3) * 1.05;
     let d_max = points.iter().map(|p| p.distance).chain(r.loo.iter().copied()).fold(0.0f64, f64::max).max(1e-3) * 1.1;
     let mut chart = panel(&left, "distance against bout rate", (rate_max, "bout rate [Hz]"), (d_max, "true distance [m]"))?;
-    chart.draw_series(points.iter().map(|p| Circle::new((p.bout_rate, p.distance), 3, BLUE.filled()))).map_err(plot_err)?;
+    chart.draw_series(points.iter().map(|p| Circle::new((p.bout_rate, p.distance), 3, palette::BLUE.filled()))).map_err(plot_err)?;
     // The model (at the median amplitude when it uses the amplitude).
     let mut amps: Vec<f64> = points.iter().map(|p| p.bout_amplitude).filter(|a| *a > 0.0).collect();
     amps.sort_by(f64::total_cmp);
@@ -334,12 +391,12 @@ where
         let x = rate_max * k as f64 / 200.0;
         (x, f.predict_ln(x, amp).exp().min(d_max))
     });
-    chart.draw_series(LineSeries::new(curve, RED.stroke_width(2))).map_err(plot_err)?;
+    chart.draw_series(LineSeries::new(curve, palette::VERMILLION.stroke_width(2))).map_err(plot_err)?;
 
     let mut chart = panel(&right, "leave-one-out estimate against truth", (d_max, "true distance [m]"), (d_max, "estimated distance [m]"))?;
     chart.draw_series(LineSeries::new([(0.0, 0.0), (d_max, d_max)], BLACK.stroke_width(1))).map_err(plot_err)?;
     chart
-        .draw_series(points.iter().zip(&r.loo).map(|(p, e)| Circle::new((p.distance, e.min(d_max)), 3, BLUE.filled())))
+        .draw_series(points.iter().zip(&r.loo).map(|(p, e)| Circle::new((p.distance, e.min(d_max)), 3, palette::BLUE.filled())))
         .map_err(plot_err)?;
     area.present().map_err(plot_err)?;
     Ok(())
@@ -368,7 +425,12 @@ mod tests {
             params: None,
             namespace: String::new(),
             chem_topic: None,
+            source_values: Vec::new(),
             source: None,
+            force: false,
+            min_r2: 0.5,
+            max_loo_error: 0.5,
+            min_distance_ratio: 2.0,
             use_amplitude: false,
             plot: None,
             truth_max_gap: None,
@@ -449,6 +511,51 @@ mod tests {
         let e = format!("{:#}", run(a).expect_err("no such topic"));
         assert!(e.contains("/nowhere") && e.contains("/truth"), "{e}");
         assert!(!dir.join("o.yaml").exists(), "nothing written on error");
+        let _ = std::fs::remove_dir_all(&dir);
+    }
+
+    #[test]
+    fn a_weak_fit_is_refused_unless_forced_and_the_header_says_what_was_fitted() {
+        let dir = temp("gate");
+        // Bout rate rising with distance (the wrong way), scattered: fails the slope and R^2.
+        let csv = dir.join("weak.csv");
+        let mut t = String::from("bout_rate,distance\n");
+        for i in 0..24 {
+            let d = 1.0 + 0.25 * i as f64;
+            let r = 0.2 + 0.01 * d + 0.3 * ((i * 7 % 5) as f64 / 5.0);
+            t += &format!("{r},{d}\n");
+        }
+        std::fs::write(&csv, &t).expect("writes");
+        let mut a = args(dir.join("weak.yaml"));
+        a.features = Some(csv.clone());
+        let e = run(a).expect_err("refused");
+        assert!(e.to_string().contains("quality gate") && e.to_string().contains("--force"), "{e}");
+        assert!(!dir.join("weak.yaml").exists());
+        let mut a = args(dir.join("weak.yaml"));
+        a.features = Some(csv.clone());
+        a.force = true;
+        run(a).expect("forced");
+        let text = std::fs::read_to_string(dir.join("weak.yaml")).expect("written");
+        assert!(text.contains("# quality gate: FAILED, written with --force") && text.contains("rate coefficient is +"), "{text}");
+        sillage_core::params::load_str::<Params>(&text, "weak", "/plume_estimator").expect("still loads");
+        // A clean log-linear relation over 1 to 7 m passes, and the header names the input
+        // with its digest, the figures and the date.
+        let good = dir.join("good.csv");
+        let mut t = String::from("bout_rate,distance\n");
+        for i in 0..24 {
+            let d = 1.0 + 0.25 * i as f64;
+            let wiggle = 0.02 * ((i % 3) as f64 - 1.0);
+            t += &format!("{},{d}\n", (2.0 - d.ln()) / 0.8 + wiggle);
+        }
+        std::fs::write(&good, &t).expect("writes");
+        let mut a = args(dir.join("good.yaml"));
+        a.features = Some(good.clone());
+        run(a).expect("passes");
+        let text = std::fs::read_to_string(dir.join("good.yaml")).expect("written");
+        let digest = sillage_tune::bags::bag_digest(&good).expect("digest");
+        assert!(text.contains(&format!("# input: {} (digest {digest})", good.display())), "{text}");
+        assert!(text.contains("# quality gate: passed") && text.contains("# date: 20") && text.contains(" UTC"), "{text}");
+        assert!(text.contains("# fit: 24 windows, R^2 (ln d) 0.9"), "{text}");
         let _ = std::fs::remove_dir_all(&dir);
     }
 }

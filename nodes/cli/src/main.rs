@@ -5,7 +5,10 @@ use clap::{Parser, Subcommand};
 
 mod calibrate;
 mod check;
+mod palette;
+mod progress;
 mod replay;
+mod signals;
 mod sim;
 mod sim_table;
 mod truth;
@@ -38,8 +41,12 @@ enum Command {
     Check(check::Args),
 }
 
-fn main() -> anyhow::Result<()> {
-    match Cli::parse().command {
+fn main() {
+    let cli = Cli::parse();
+    if let Err(e) = signals::install() {
+        eprintln!("warning: cannot catch SIGINT/SIGTERM ({e}); an interrupt will lose unfinished outputs");
+    }
+    let result = match cli.command {
         Command::Replay(a) => replay::run(a),
         Command::Bag(c) => replay::run_bag(c),
         Command::Sim(a) => sim::run(a),
@@ -47,5 +54,28 @@ fn main() -> anyhow::Result<()> {
         Command::Calibrate(a) => calibrate::run(a),
         Command::Tune(a) => tune::run(a),
         Command::Check(a) => check::run(a),
+    };
+    if let Err(e) = &result {
+        eprintln!("error: {}", error_text(e));
     }
+    if let Some(sig) = signals::caught() {
+        eprintln!("sillage: stopped by {}; the outputs hold what was done until then", signals::name(sig));
+        std::process::exit(128 + sig);
+    }
+    if result.is_err() {
+        std::process::exit(1);
+    }
+}
+
+/// An error and its causes on one line, each cause once (a typed error often repeats its
+/// source's text in its own).
+fn error_text(e: &anyhow::Error) -> String {
+    let mut text = e.to_string();
+    for cause in e.chain().skip(1) {
+        let c = cause.to_string();
+        if !text.contains(&c) {
+            text = format!("{text}: {c}");
+        }
+    }
+    text
 }

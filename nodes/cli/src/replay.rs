@@ -16,12 +16,14 @@ mod plots;
 mod summary;
 
 use anyhow::{Context, Result};
+use sillage_bag::scan::{duration_text, stamp_text, utc_text, Scan};
 use sillage_bag::{bag_info, Bag, BagWriter, QosProfile, ReadOptions, WriterOptions};
 use sillage_core::executor::Record;
 use sillage_core::time::{nanos, secs};
 use sillage_stack::StackConfig;
 use std::path::PathBuf;
 use std::time::Instant;
+use crate::progress::Progress;
 
 /// Arguments of `sillage replay`.
 #[derive(clap::Args)]
@@ -62,9 +64,39 @@ pub struct Args {
     /// Stop at the first undecodable message, schema mismatch or backward log time.
     #[arg(long)]
     pub strict: bool,
-    /// Do not show a progress bar.
+    /// Do not show the progress line.
     #[arg(long)]
     pub quiet: bool,
+    /// Exit 0 even when the input bag is damaged or holds fewer messages than its
+    /// metadata.yaml (the readable part is replayed either way).
+    #[arg(long)]
+    pub allow_partial: bool,
+}
+
+/// The arbiter's speed caps (`guard.max_linear`, `guard.max_reverse`, `guard.max_angular`), read
+/// from the running node's parameters.
+fn guard_caps(ex: &sillage_core::executor::Executor) -> Option<plots::Caps> {
+    let names = ex.node_names();
+    let i = names.iter().position(|n| n.rsplit('/').next() == Some("arbiter"))?;
+    let p = ex.node(i)?.params_yaml();
+    let g = p.get("guard")?;
+    let f = |k: &str| g.get(k).and_then(serde_yaml::Value::as_f64);
+    Some(plots::Caps { max_linear: f("max_linear")?, max_reverse: f("max_reverse")?, max_angular: f("max_angular")? })
+}
+
+/// Damage met and, when the whole bag was read, topic counts short of metadata.yaml.
+fn integrity_lines(bag: &Bag, report: &sillage_bag::ReadReport, whole: bool) -> Vec<String> {
+    let mut out: Vec<String> = report.damage.iter().map(ToString::to_string).collect();
+    if let (true, Some((expected, _))) = (whole, sillage_bag::scan::expected_counts(bag)) {
+        let read = report.topics.iter().fold(std::collections::BTreeMap::new(), |mut m, t| {
+            *m.entry(t.name.clone()).or_insert(0) += t.read + t.skipped;
+            m
+        });
+        for m in sillage_bag::scan::shortfalls(&expected, &read) {
+            out.push(format!("topic {}: {} read, metadata.yaml lists {} ({:+})", m.topic, m.read, m.expected, m.read as i64 - m.expected as i64));
+        }
+    }
+    out
 }
 
 /// Chunk compression of the output bag.
@@ -91,13 +123,18 @@ impl BagCompression {
 /// `sillage bag ...` subcommands.
 #[derive(clap::Subcommand)]
 pub enum BagCommand {
-    /// Topics, types, counts, duration and storage of a bag.
+    /// Reads a whole bag: storage, start (UTC), length, integrity, and per topic its type,
+    /// count, rate and its spread, first/last log time and largest gap. Exits non-zero when
+    /// messages were lost (damage, or counts short of metadata.yaml).
     Info {
         /// The bag (folder or file).
         bag: PathBuf,
         /// Print JSON instead of text.
         #[arg(long)]
         json: bool,
+        /// Exit 0 even when the bag is damaged or holds fewer messages than its metadata.
+        #[arg(long)]
+        allow_partial: bool,
     },
 }
 
@@ -138,7 +175,8 @@ pub fn run(args: Args) -> Result<()> {
     let mut messages = bag.messages(&read)?;
     let mut collector = summary::Collector::new(None);
     let mut plot = plots::PlotData::new(start, end);
-    let bar = progress_bar(&args, start, end);
+    plot.set_caps(guard_caps(&ex));
+    let mut bar = if end - start >= 10 * sillage_core::time::SECOND { Progress::new("replay", "s bag time", secs(end - start), args.quiet) } else { None };
     let mut record = |r: &Record| -> Result<(), sillage_bag::BagError> {
         collector.record(r);
         plot.record(r);
@@ -148,18 +186,13 @@ pub fn run(args: Args) -> Result<()> {
         }
     };
     let mut progress = |t: sillage_core::Nanos| {
-        if let Some(b) = &bar {
-            b.set_position(((t - start).max(0) / 1_000_000) as u64);
+        if let Some(b) = bar.as_mut() {
+            b.set(secs((t - start).max(0)));
         }
     };
-    let outcome = sillage_bag::replay::replay(&mut ex, &mut messages, &inputs, &mut record, &mut progress);
-    if let Some(b) = &bar {
-        b.finish_and_clear();
-    }
-    if outcome.injected == 0 && outcome.error.is_none() {
-        let mut want: Vec<String> = inputs.inject.iter().map(|(t, ty)| format!("{t} ({ty})")).collect();
-        want.sort();
-        eprintln!("warning: no bag message fed the graph; it reads {} (use --remap or --namespace)", want.join(", "));
+    let outcome = sillage_bag::replay::replay_until(&mut ex, &mut messages, &inputs, &mut record, &mut progress, crate::signals::flag());
+    if let Some(b) = bar {
+        b.finish();
     }
     collector.finish();
     let written = writer.map(BagWriter::finish);
@@ -167,6 +200,10 @@ pub fn run(args: Args) -> Result<()> {
 
     let mut outputs = Vec::new();
     let mut interrupted = outcome.error.as_ref().map(ToString::to_string);
+    if outcome.stopped {
+        let at = outcome.span.map_or_else(|| "before the first message".to_string(), |(_, t)| format!("at {:.3} s of bag time", secs(t - first)));
+        interrupted = crate::signals::interrupted_note().map(|n| format!("{n} ({at})"));
+    }
     match &written {
         Some(Ok(s)) => outputs.push(format!("{} ({} messages)", s.dir.display(), s.metadata.message_count)),
         Some(Err(e)) => interrupted = Some(interrupted.map_or_else(|| e.to_string(), |i| format!("{i}; then closing the output bag: {e}"))),
@@ -179,6 +216,7 @@ pub fn run(args: Args) -> Result<()> {
         }
     }
     let report = messages.report();
+    let integrity = integrity_lines(&bag, report, args.start.is_none() && args.duration.is_none() && !outcome.stopped && outcome.error.is_none());
     let mut skipped: Vec<summary::SkippedLine> = report
         .topics
         .iter()
@@ -212,29 +250,33 @@ pub fn run(args: Args) -> Result<()> {
         warnings: report.warnings.iter().map(ToString::to_string).collect(),
         warnings_dropped: report.warnings_dropped,
         interrupted: interrupted.clone(),
+        integrity: integrity.clone(),
+        start_offset_s: args.start.unwrap_or(0.0),
         outputs,
     });
     std::fs::write(&json_path, serde_json::to_string_pretty(&s)? + "\n").with_context(|| format!("writing {}", json_path.display()))?;
     let text = s.text();
     std::fs::write(&text_path, &text).with_context(|| format!("writing {}", text_path.display()))?;
     print!("{text}");
+    if outcome.injected == 0 && interrupted.is_none() {
+        let mut want: Vec<String> = inputs.inject.iter().map(|(t, ty)| format!("{t} ({ty})")).collect();
+        want.sort();
+        if !integrity.is_empty() {
+            anyhow::bail!("no bag message fed the graph: the bag is damaged ({})", integrity.join("; "));
+        }
+        let have: Vec<String> = report.topics.iter().map(|t| format!("{} ({})", t.name, t.type_name)).collect();
+        if have.is_empty() {
+            anyhow::bail!("no bag message fed the graph: no message in the selected time range of the bag");
+        }
+        anyhow::bail!("no bag message fed the graph: it reads {}; the bag has {} (use --remap or --namespace)", want.join(", "), have.join(", "));
+    }
+    if !integrity.is_empty() && !args.allow_partial && interrupted.is_none() {
+        anyhow::bail!("the input bag is damaged: {} (outputs in {} hold what was readable; --allow-partial accepts it)", integrity.join("; "), out_dir.display());
+    }
     if let Some(e) = interrupted {
         anyhow::bail!("replay stopped early: {e} (outputs in {} hold what was computed until then)", out_dir.display());
     }
     Ok(())
-}
-
-fn progress_bar(args: &Args, start: sillage_core::Nanos, end: sillage_core::Nanos) -> Option<indicatif::ProgressBar> {
-    // Only for bags longer than a few seconds (and only on a terminal: indicatif hides itself
-    // otherwise).
-    if args.quiet || end - start < 10 * sillage_core::time::SECOND {
-        return None;
-    }
-    let bar = indicatif::ProgressBar::new(((end - start) / 1_000_000) as u64);
-    let style = indicatif::ProgressStyle::with_template("{spinner} replay [{bar:40}] {percent:>3}% bag time, {elapsed} elapsed, eta {eta}")
-        .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar());
-    bar.set_style(style.progress_chars("=> "));
-    Some(bar)
 }
 
 fn human_size(n: u64) -> String {
@@ -250,48 +292,105 @@ fn human_size(n: u64) -> String {
 
 /// Runs `sillage bag ...`.
 pub fn run_bag(c: BagCommand) -> Result<()> {
-    let BagCommand::Info { bag, json } = c;
+    let BagCommand::Info { bag, json, allow_partial } = c;
     let b = Bag::open(&bag)?;
-    let info = bag_info(&b)?;
+    let scan = sillage_bag::scan::scan(&b)?;
     if json {
-        let v = serde_json::json!({
-            "files": info.files.iter().map(|f| serde_json::json!({
-                "path": f.path.display().to_string(), "storage": f.storage.identifier(), "size": f.size,
-                "message_count": f.message_count, "start_ns": f.span.map(|s| s.0), "end_ns": f.span.map(|s| s.1),
-            })).collect::<Vec<_>>(),
-            "message_count": info.message_count,
-            "start_ns": info.span.map(|s| s.0), "end_ns": info.span.map(|s| s.1),
-            "duration_s": secs(info.duration()),
-            "topics": info.topics.iter().map(|t| serde_json::json!({
-                "name": t.name, "type": t.type_name, "count": t.count, "serialization_format": t.serialization_format, "known": t.known,
-            })).collect::<Vec<_>>(),
-            "warnings": b.warnings.iter().map(ToString::to_string).collect::<Vec<_>>(),
-        });
-        println!("{}", serde_json::to_string_pretty(&v)?);
-        return Ok(());
+        println!("{}", serde_json::to_string_pretty(&bag_info_json(&scan))?);
+    } else {
+        print!("{}", bag_info_text(&b.name, &scan));
     }
-    let size: u64 = info.files.iter().map(|f| f.size).sum();
-    let mut storages: Vec<&str> = info.files.iter().map(|f| f.storage.identifier()).collect();
-    storages.dedup();
-    let names: Vec<String> = info.files.iter().map(|f| f.path.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default()).collect();
-    println!("Files:             {}", names.join(", "));
-    println!("Bag size:          {}", human_size(size));
-    println!("Storage id:        {}", storages.join(", "));
-    println!("Duration:          {:.9} s", secs(info.duration()));
-    if let Some((a, z)) = info.span {
-        println!("Start:             {:.9} s ({a} ns)", secs(a));
-        println!("End:               {:.9} s ({z} ns)", secs(z));
-    }
-    println!("Messages:          {}", info.message_count);
-    let w = info.topics.iter().map(|t| t.name.len()).max().unwrap_or(0);
-    let tw = info.topics.iter().map(|t| t.type_name.len()).max().unwrap_or(0);
-    for (i, t) in info.topics.iter().enumerate() {
-        let lead = if i == 0 { "Topic information: " } else { "                   " };
-        let note = if t.known { "" } else { "  (not used by sillage)" };
-        println!("{lead}{:<w$}  {:<tw$}  {:>9} msgs  {}{note}", t.name, t.type_name, t.count, t.serialization_format);
-    }
-    for wn in &b.warnings {
-        eprintln!("warning: {wn}");
+    if !scan.intact() && !allow_partial {
+        anyhow::bail!("{}: damaged or incomplete: {} message(s) known lost (see integrity above; --allow-partial accepts it)", bag.display(), scan.lost());
     }
     Ok(())
+}
+
+fn opt_stamp(t: Option<sillage_core::Nanos>) -> serde_json::Value {
+    t.map_or(serde_json::Value::Null, |t| serde_json::Value::String(stamp_text(t)))
+}
+
+/// `sillage bag info --json`: times as integer nanoseconds and as exact decimal strings.
+fn bag_info_json(s: &Scan) -> serde_json::Value {
+    serde_json::json!({
+        "files": s.files.iter().map(|(p, st, size)| serde_json::json!({"path": p.display().to_string(), "storage": st.identifier(), "bytes": size})).collect::<Vec<_>>(),
+        "message_count": s.message_count,
+        "metadata_message_count": s.expected_count,
+        "start_ns": s.span.map(|x| x.0), "end_ns": s.span.map(|x| x.1),
+        "start_s": opt_stamp(s.span.map(|x| x.0)), "end_s": opt_stamp(s.span.map(|x| x.1)),
+        "start_utc": s.span.map(|x| utc_text(x.0)),
+        "duration_ns": s.span.map(|x| x.1 - x.0),
+        "duration_s": s.span.map(|x| secs(x.1 - x.0)),
+        "topics": s.topics.iter().map(|t| serde_json::json!({
+            "name": t.name, "type": t.type_name, "encoding": t.encoding, "read_by_sillage": t.known,
+            "count": t.count, "metadata_count": t.expected,
+            "first_ns": t.span.map(|x| x.0), "last_ns": t.span.map(|x| x.1),
+            "mean_rate_hz": t.mean_rate(), "interval_mean_ns": t.mean_interval, "interval_sd_ns": t.interval_sd,
+            "largest_gap_ns": t.largest_gap.map(|g| g.0), "largest_gap_end_ns": t.largest_gap.map(|g| g.1),
+        })).collect::<Vec<_>>(),
+        "integrity": {
+            "intact": s.intact(),
+            "lost_messages": s.lost(),
+            "damage": s.damage.iter().map(|d| serde_json::json!({
+                "file": d.path.display().to_string(), "byte": d.offset, "kind": format!("{:?}", d.kind).to_lowercase(), "reason": d.reason,
+                "lost": d.lost.iter().map(|(t, n)| serde_json::json!({"topic": t, "count": n})).collect::<Vec<_>>(),
+            })).collect::<Vec<_>>(),
+            "count_mismatches": s.shortfalls.iter().map(|m| serde_json::json!({"topic": m.topic, "metadata": m.expected, "read": m.read})).collect::<Vec<_>>(),
+        },
+        "warnings": s.warnings,
+    })
+}
+
+/// `sillage bag info`: a header block (storage, start, length, integrity), then one block per
+/// topic.
+fn bag_info_text(name: &str, s: &Scan) -> String {
+    use std::fmt::Write as _;
+    let mut o = String::new();
+    let size: u64 = s.files.iter().map(|f| f.2).sum();
+    let mut storages: Vec<&str> = s.files.iter().map(|f| f.1.identifier()).collect();
+    storages.dedup();
+    let names: Vec<String> = s.files.iter().map(|f| f.0.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default()).collect();
+    let _ = writeln!(o, "bag '{name}'");
+    let _ = writeln!(o, "  storage    {} in {} file(s), {}: {}", storages.join("+"), s.files.len(), human_size(size), names.join(", "));
+    match s.span {
+        Some((a, z)) => {
+            let _ = writeln!(o, "  starts     {}  (log time {} s)", utc_text(a), stamp_text(a));
+            let _ = writeln!(o, "  lasts      {} s, to log time {} s", duration_text(z - a), stamp_text(z));
+        }
+        None => {
+            let _ = writeln!(o, "  starts     (no message)");
+        }
+    }
+    let _ = writeln!(o, "  holds      {} message(s) on {} topic(s)", s.message_count, s.topics.len());
+    let meta = s.expected_count.map_or_else(|| "no metadata.yaml to compare with".to_string(), |e| format!("metadata.yaml lists {e}"));
+    if s.intact() {
+        let _ = writeln!(o, "  integrity  intact: every record readable, {} read, {meta}", s.message_count);
+    } else {
+        let _ = writeln!(o, "  integrity  DAMAGED: {} read, {meta}; {} known lost", s.message_count, s.lost());
+        for d in &s.damage {
+            let _ = writeln!(o, "             - {d}");
+        }
+        for m in &s.shortfalls {
+            let _ = writeln!(o, "             - topic {}: {} read, metadata.yaml lists {} ({:+})", m.topic, m.read, m.expected, m.read as i64 - m.expected as i64);
+        }
+    }
+    for t in &s.topics {
+        let note = if t.known { "" } else { "  [not read by the node graph]" };
+        let _ = writeln!(o, "\n  {}  <{}, {}>{note}", t.name, t.type_name, t.encoding);
+        let rate = match (t.mean_rate(), t.interval_sd) {
+            (Some(r), Some(sd)) => format!("{r:.3} Hz mean, interval {:.3} ms +- {:.3} ms (1 sd)", t.mean_interval.unwrap_or(0.0) / 1e6, sd / 1e6),
+            _ => "rate n/a (fewer than 2 messages)".to_string(),
+        };
+        let _ = writeln!(o, "      {} message(s), {rate}", t.count);
+        if let Some((a, z)) = t.span {
+            let _ = writeln!(o, "      first {} s, last {} s", stamp_text(a), stamp_text(z));
+        }
+        if let (Some((g, end)), Some((a, _))) = (t.largest_gap, t.span) {
+            let _ = writeln!(o, "      largest gap {} s, ending {} s after its first message", duration_text(g), duration_text(end - a));
+        }
+    }
+    for w in &s.warnings {
+        let _ = writeln!(o, "warning: {w}");
+    }
+    o
 }

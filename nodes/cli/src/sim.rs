@@ -20,7 +20,6 @@ mod sim_report;
 
 use sim_plots::Format;
 use anyhow::{Context, Result};
-use rayon::prelude::*;
 use sillage_bag::{BagWriter, QosProfile, WriterOptions};
 use sillage_core::executor::{remap_topic, Placement, Record};
 use sillage_core::{NodeCore, Qos};
@@ -30,7 +29,10 @@ use sillage_stack::StackConfig;
 use sillage_world::Scenario;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
+use std::sync::Mutex;
 use std::time::Instant;
+use crate::progress::Progress;
 
 /// Arguments of `sillage sim`.
 #[derive(clap::Args)]
@@ -141,15 +143,31 @@ fn topic_qos(sim: &Sim, built: &sillage_sim::setup::BuiltStack, world: &dyn Node
     out
 }
 
-fn progress_bar(args: &Args) -> Option<indicatif::ProgressBar> {
-    if args.quiet {
-        return None;
-    }
-    let bar = indicatif::ProgressBar::new(episode_indices(args).len() as u64);
-    let style = indicatif::ProgressStyle::with_template("{spinner} sim [{bar:40}] {pos}/{len} episodes, {elapsed} elapsed, eta {eta}")
-        .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar());
-    bar.set_style(style.progress_chars("=> "));
-    Some(bar)
+/// Runs episodes `0..n` on `jobs` threads, taking the next index from a shared counter, until
+/// all are done or `stop` is set; episodes under way then finish, so what comes back is always
+/// the episodes `0..k` in order.
+fn run_in_order<T: Send>(n: usize, jobs: usize, stop: &AtomicBool, work: &(dyn Fn(usize) -> T + Sync), done: &(dyn Fn() + Sync)) -> Vec<T> {
+    let next = AtomicUsize::new(0);
+    let slots: Mutex<Vec<Option<T>>> = Mutex::new((0..n).map(|_| None).collect());
+    std::thread::scope(|scope| {
+        for _ in 0..jobs.min(n) {
+            scope.spawn(|| loop {
+                if stop.load(Ordering::Relaxed) {
+                    return;
+                }
+                let i = next.fetch_add(1, Ordering::Relaxed);
+                if i >= n {
+                    return;
+                }
+                let r = work(i);
+                if let Ok(mut v) = slots.lock() {
+                    v[i] = Some(r);
+                }
+                done();
+            });
+        }
+    });
+    slots.into_inner().unwrap_or_default().into_iter().map_while(|x| x).collect()
 }
 
 /// Runs `sillage sim`.
@@ -191,27 +209,35 @@ pub fn run(args: Args) -> Result<()> {
 
     let jobs = args.jobs.unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
     let pool = rayon::ThreadPoolBuilder::new().num_threads(jobs).build()?;
-    let bar = progress_bar(&args);
+    let bar = Mutex::new(Progress::new("sim", "episodes", indices.len() as f64, args.quiet));
+    let finished = AtomicUsize::new(0);
     let (results, map) = pool.install(|| {
         rayon::join(
             || {
-                indices
-                    .par_iter()
-                    .map(|&i| {
+                run_in_order(
+                    indices.len(),
+                    jobs,
+                    crate::signals::flag(),
+                    &|j| {
+                        let i = indices[j];
                         let bag = bag_dir(&out_dir, args.record, indices[0], i);
-                        let r = run_one(&sim, &args, i, i == indices[0], bag.as_deref().map(|d| (d, &qos)));
-                        if let Some(b) = &bar {
-                            b.inc(1);
+                        run_one(&sim, &args, i, j == 0, bag.as_deref().map(|d| (d, &qos)))
+                    },
+                    &|| {
+                        let k = finished.fetch_add(1, Ordering::Relaxed) + 1;
+                        if let Ok(mut b) = bar.lock() {
+                            if let Some(b) = b.as_mut() {
+                                b.set(k as f64);
+                            }
                         }
-                        r
-                    })
-                    .collect::<Vec<Result<(EpisodeResult, Option<String>)>>>()
+                    },
+                )
             },
             || sim_plots::mean_map(&sim.scenario, first.seed, sim.time_limit()),
         )
     });
-    if let Some(b) = &bar {
-        b.finish_and_clear();
+    if let Some(b) = bar.into_inner().ok().flatten() {
+        b.finish();
     }
     let mut episodes = Vec::with_capacity(results.len());
     let mut outputs = vec![params_path.display().to_string()];
@@ -219,6 +245,9 @@ pub fn run(args: Args) -> Result<()> {
         let (e, bag) = r?;
         outputs.extend(bag);
         episodes.push(e);
+    }
+    if episodes.is_empty() {
+        anyhow::bail!("no episode finished before the interrupt (parameters in {})", params_path.display());
     }
     let summary = Summary::of(&episodes);
     let wall = started.elapsed().as_secs_f64();

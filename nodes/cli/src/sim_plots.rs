@@ -52,10 +52,8 @@ fn e<E: std::fmt::Debug>(x: E) -> anyhow::Error {
     anyhow!("{x:?}")
 }
 
-const BLUE: RGBColor = RGBColor(31, 119, 180);
-const RED_: RGBColor = RGBColor(214, 39, 40);
-const GREEN_: RGBColor = RGBColor(44, 160, 44);
-const ORANGE: RGBColor = RGBColor(255, 127, 14);
+// sillage's own palette (crate::palette): success green, failure vermillion.
+use crate::palette::{BLUE, GREEN as GREEN_, ORANGE, VERMILLION as RED_};
 
 fn heat(v: f64) -> RGBColor {
     // v in [0, 1]: white -> yellow -> orange -> dark red.

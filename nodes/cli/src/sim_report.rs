@@ -43,9 +43,11 @@ pub struct Report<'a> {
     pub summary: &'a Summary,
     /// Files written.
     pub outputs: Vec<String>,
+    /// Why the run ended before its last episode (an interrupt), if it did.
+    pub interrupted: Option<String>,
 }
 
-fn quantiles(name: &str, unit: &str, q: &Option<Quantiles>, out: &mut String) {
+fn quantiles(name: &str, unit: &str, q: &Option<Quantiles>, none: &str, out: &mut String) {
     match q {
         Some(q) => {
             let _ = writeln!(
@@ -55,7 +57,7 @@ fn quantiles(name: &str, unit: &str, q: &Option<Quantiles>, out: &mut String) {
             );
         }
         None => {
-            let _ = writeln!(out, "{name:<22} none (no episode has one)");
+            let _ = writeln!(out, "{name:<22} none ({none})");
         }
     }
 }
@@ -108,6 +110,7 @@ impl<'a> Report<'a> {
             real_time_factor: summary.sim_time / wall_s.max(1e-9),
             summary,
             outputs,
+            interrupted: crate::signals::interrupted_note().map(|n| format!("{n}: {} of {} episodes ran (0..{})", summary.episodes, args.episodes, summary.episodes)),
         }
     }
 
@@ -121,6 +124,9 @@ impl<'a> Report<'a> {
             [a, .., b] => format!("episodes {a}..{b} (world seeds {}..{})", self.seed + *a as u64, self.seed + *b as u64),
             [] => "no episode".into(),
         };
+        if let Some(i) = &self.interrupted {
+            let _ = writeln!(out, "INTERRUPTED: {i}");
+        }
         let _ = writeln!(
             out,
             "params {}, strategy {}{}, {which}, time limit {:.0} s, success radius {:.2} m",
@@ -153,19 +159,19 @@ impl<'a> Report<'a> {
         let _ = writeln!(out, "reached the source     {}/{}  (Wilson 95 %: {:.1} - {:.1} %; robot within the radius at some time)", s.reached, s.episodes, 100.0 * rlo, 100.0 * rhi);
         let outcomes: Vec<String> = s.outcomes.iter().map(|(k, v)| format!("{k} {v}")).collect();
         let _ = writeln!(out, "outcomes               {}", outcomes.join(", "));
-        quantiles("time to declare", " s", &s.time_to_declare, &mut out);
-        quantiles("path ratio", "", &s.path_ratio, &mut out);
-        quantiles("time to reach", " s", &s.time_to_reach, &mut out);
-        quantiles("path ratio to reach", "", &s.reach_path_ratio, &mut out);
-        quantiles("closest approach", " m", &s.min_distance, &mut out);
-        quantiles("contact to declaration", " s", &s.contact_to_declare, &mut out);
+        quantiles("time to declare", " s", &s.time_to_declare, "no successful episode", &mut out);
+        quantiles("path ratio", "", &s.path_ratio, "no successful episode", &mut out);
+        quantiles("time to reach", " s", &s.time_to_reach, "no episode reached a source", &mut out);
+        quantiles("path ratio to reach", "", &s.reach_path_ratio, "no episode reached a source", &mut out);
+        quantiles("closest approach", " m", &s.min_distance, "no episode", &mut out);
+        quantiles("contact to declaration", " s", &s.contact_to_declare, "no episode declared after a contact", &mut out);
         let total: f64 = s.time_in_mode.values().sum();
         let modes: Vec<String> = s.time_in_mode.iter().map(|(m, t)| format!("{m} {:.0} %", 100.0 * t / total.max(1e-9))).collect();
         let _ = writeln!(out, "time in mode           {}", modes.join(", "));
         cue_lines(s, &mut out);
         let _ = writeln!(
             out,
-            "false declarations {} (in {} episodes), halts {}, obstacle stops {}, collisions {} (in {} episodes)",
+            "false declarations {} (in {} episodes), halts {}, commands stopped for obstacles {} (control ticks), collisions {} (in {} episodes)",
             s.false_declarations, s.episodes_with_false_declarations, s.halts, s.obstacle_stops, s.collisions, s.episodes_with_collisions
         );
         for (reason, n) in &s.halt_reasons {

@@ -17,7 +17,9 @@ mod report;
 pub(crate) mod sim_eval;
 
 use anyhow::{Context, Result};
-use indicatif::{ProgressBar, ProgressStyle};
+use crate::progress::Progress;
+use std::fmt::Write as _;
+use std::sync::Mutex;
 use sillage_tune::rank::rank;
 use sillage_tune::results::{self, read_records, ResultsFile};
 use sillage_tune::run::{run_sweep, Shard};
@@ -86,8 +88,6 @@ pub fn run(args: Args) -> Result<()> {
     });
     let eval = Evaluators::new(&sweep, &out.join("points"))?;
     let pool = rayon::ThreadPoolBuilder::new().num_threads(args.jobs.unwrap_or(0)).build()?;
-    let bar = if args.quiet { ProgressBar::hidden() } else { ProgressBar::new(0) };
-    bar.set_style(ProgressStyle::with_template("{spinner} {elapsed_precise} [{bar:40}] {pos}/{len} cases, ETA {eta}")?.progress_chars("=> "));
     let points = sillage_tune::design::points(&sweep).len();
     eprintln!(
         "sweep '{}': {points} points x {} cases, shard {}/{}, {} threads, results in {}",
@@ -98,17 +98,29 @@ pub fn run(args: Args) -> Result<()> {
         pool.current_num_threads(),
         out.display()
     );
+    let bar: Mutex<Option<Progress>> = Mutex::new(None);
     let progress = |done: usize, total: usize| {
-        bar.set_length(total as u64);
-        bar.set_position(done as u64);
+        if let Ok(mut b) = bar.lock() {
+            if b.is_none() {
+                *b = Progress::new("tune", "cases", total as f64, args.quiet);
+            }
+            if let Some(b) = b.as_mut() {
+                b.set(done as f64);
+            }
+        }
     };
-    let report = pool.install(|| run_sweep(&sweep, &eval, &out, shard, &progress, &|| false))?;
-    bar.finish_and_clear();
+    let report = pool.install(|| run_sweep(&sweep, &eval, &out, shard, &progress, &crate::signals::requested))?;
+    if let Some(b) = bar.into_inner().ok().flatten() {
+        b.finish();
+    }
     eprintln!("{} cases in this shard: {} already done, {} run now", report.shard_units, report.skipped, report.evaluated);
     if shard != Shard::ALL {
         eprintln!("shard {}/{}: the ranking covers this shard only; join the shards with `sillage tune merge DIR...`", shard.index, shard.count);
     }
-    finish(&out, &sweep, read_records(&out)?, !args.no_plots)
+    let interrupted = crate::signals::interrupted_note().map(|n| {
+        format!("{n}: {} of the shard's {} cases are in results.jsonl; the same command resumes", report.skipped + report.evaluated, report.shard_units)
+    });
+    finish(&out, &sweep, read_records(&out)?, !args.no_plots, interrupted)
 }
 
 fn merge(dirs: &[PathBuf], out: Option<PathBuf>, no_plots: bool) -> Result<()> {
@@ -124,25 +136,35 @@ fn merge(dirs: &[PathBuf], out: Option<PathBuf>, no_plots: bool) -> Result<()> {
     let points = sillage_tune::design::points(&sweep).len() * sillage_tune::run::cases(&sweep).len();
     let merged = read_records(&out)?;
     eprintln!("merged {} folders: {} of {points} cases", dirs.len(), merged.len());
-    finish(&out, &sweep, merged, !no_plots)
+    finish(&out, &sweep, merged, !no_plots, None)
 }
 
-fn finish(out: &Path, sweep: &LoadedSweep, records: Vec<sillage_tune::Record>, plots: bool) -> Result<()> {
+/// Ranks, writes the outputs and `summary.txt` (the printed table; first a line saying the run
+/// was interrupted, when it was).
+fn finish(out: &Path, sweep: &LoadedSweep, records: Vec<sillage_tune::Record>, plots: bool, interrupted: Option<String>) -> Result<()> {
     let errors: Vec<&sillage_tune::Record> = records.iter().filter(|r| r.error.is_some()).collect();
     for r in errors.iter().take(5) {
         eprintln!("warning: point {} case {}: {}", r.point, r.case, r.error.as_deref().unwrap_or(""));
     }
     let ranked = rank(&sweep.sweep, &records);
-    let files = report::write(out, sweep, &ranked, plots)?;
-    println!("rank  score [95 % interval]            cases  values");
+    let mut files = report::write(out, sweep, &ranked, plots)?;
+    let mut text = String::new();
+    if let Some(i) = &interrupted {
+        let _ = writeln!(text, "INTERRUPTED: {i}");
+    }
+    let _ = writeln!(text, "rank  score [95 % interval]            cases  values");
     for r in ranked.iter().take(5) {
         let values: Vec<String> = r.values.iter().map(|(k, v)| format!("{k}={}", v.label())).collect();
         let terms: Vec<String> = r.terms.iter().map(|t| format!("{} {:.3} [{:.3}, {:.3}]", t.metric, t.estimate, t.low, t.high)).collect();
-        println!("{:>4}  {:>8.4} [{:.4}, {:.4}]  {:>5}  {}  ({})", r.rank, r.score, r.score_low, r.score_high, r.cases, values.join(" "), terms.join("; "));
+        let _ = writeln!(text, "{:>4}  {:>8.4} [{:.4}, {:.4}]  {:>5}  {}  ({})", r.rank, r.score, r.score_low, r.score_high, r.cases, values.join(" "), terms.join("; "));
     }
     if !errors.is_empty() {
-        println!("{} cases failed to run (see results.jsonl)", errors.len());
+        let _ = writeln!(text, "{} cases failed to run (see results.jsonl)", errors.len());
     }
+    let summary = out.join("summary.txt");
+    std::fs::write(&summary, &text).with_context(|| format!("{}: cannot write", summary.display()))?;
+    files.push(summary);
+    print!("{text}");
     for f in files {
         println!("wrote {}", f.display());
     }

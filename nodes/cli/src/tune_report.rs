@@ -5,6 +5,7 @@
 
 use anyhow::{Context, Result};
 use plotters::prelude::*;
+use crate::palette;
 use sillage_tune::params_out::point_params_text;
 use sillage_tune::{LoadedSweep, ParamValue, Point, Ranked};
 use std::fmt::Write as _;
@@ -115,12 +116,12 @@ fn plot_param(path: &Path, key: &str, ranked: &[Ranked]) -> Result<()> {
         .x_label_formatter(&|x| if label_text.is_empty() { format!("{x:.3}") } else { label_text.get(x.round() as usize).cloned().unwrap_or_default() })
         .draw()
         .map_err(|e| anyhow::anyhow!("{e}"))?;
-    chart.draw_series(xy.iter().map(|(x, y)| Circle::new((*x, *y), 3, BLUE.mix(0.5).filled()))).map_err(|e| anyhow::anyhow!("{e}"))?;
+    chart.draw_series(xy.iter().map(|(x, y)| Circle::new((*x, *y), 3, palette::BLUE.mix(0.5).filled()))).map_err(|e| anyhow::anyhow!("{e}"))?;
     chart
-        .draw_series(LineSeries::new(means.iter().map(|(x, s, n)| (*x, s / *n as f64)), RED.stroke_width(2)))
+        .draw_series(LineSeries::new(means.iter().map(|(x, s, n)| (*x, s / *n as f64)), palette::VERMILLION.stroke_width(2)))
         .map_err(|e| anyhow::anyhow!("{e}"))?
         .label("mean score per value")
-        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], RED));
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], palette::VERMILLION));
     chart.configure_series_labels().background_style(WHITE.mix(0.8)).border_style(BLACK).draw().map_err(|e| anyhow::anyhow!("{e}"))?;
     root.present().map_err(|e| anyhow::anyhow!("{e}"))?;
     Ok(())

@@ -172,7 +172,7 @@ fn distance(n: &PlumeEstimator, out: &mut Vec<DiagnosticStatus>) {
     let value = last.map_or(f64::NAN, |l| l.distance);
     let sigma = last.map_or(f64::NAN, |l| l.distance_sigma);
     let (level, message) = if !d.calibrated {
-        (OK, "uncalibrated: distance is NaN (run 'sillage calibrate')".to_string())
+        (WARN, "uncalibrated: distance is NaN (run 'sillage calibrate')".to_string())
     } else if value.is_nan() {
         (WARN, "calibrated, but the features it needs are unavailable".to_string())
     } else {

@@ -219,6 +219,11 @@ pub struct Summary {
     pub warnings_dropped: u64,
     /// Why the replay stopped early (null when it ran to the end).
     pub interrupted: Option<String>,
+    /// Damage and lost messages of the input bags (empty when intact).
+    pub integrity: Vec<String>,
+    /// Where the replay started, after the bag's first message [s] (`--start`); the mode
+    /// timeline's times count from there.
+    pub start_offset_s: f64,
     /// Output files.
     pub outputs: Vec<String>,
 }
@@ -245,6 +250,10 @@ pub struct Parts<'a> {
     pub warnings_dropped: u64,
     /// Error that stopped the replay.
     pub interrupted: Option<String>,
+    /// Damage and lost messages of the input bags.
+    pub integrity: Vec<String>,
+    /// `--start` [s].
+    pub start_offset_s: f64,
     /// Output files.
     pub outputs: Vec<String>,
 }
@@ -309,6 +318,8 @@ impl Collector {
             warnings: p.warnings,
             warnings_dropped: p.warnings_dropped,
             interrupted: p.interrupted,
+            integrity: p.integrity,
+            start_offset_s: p.start_offset_s,
             outputs: p.outputs,
         }
     }
@@ -343,10 +354,18 @@ impl Summary {
             let _ = writeln!(s, "  {}: in [{}], out [{}]", n.node, inp.join(", "), out.join(", "));
             for (name, st) in &n.diagnostics {
                 let level = ["OK", "WARN", "ERROR", "STALE"].get(st.level as usize).copied().unwrap_or("?");
-                let _ = writeln!(s, "    {name}: {level} {}", st.message);
+                if st.message.trim().eq_ignore_ascii_case(level) || st.message.trim().is_empty() {
+                    let _ = writeln!(s, "    {name}: {level}");
+                } else {
+                    let _ = writeln!(s, "    {name}: {level}: {}", st.message);
+                }
             }
         }
-        let _ = writeln!(s, "\nmodes:");
+        if self.start_offset_s > 0.0 {
+            let _ = writeln!(s, "\nmodes (times from the replay's start, {:.3} s after the bag's first message):", self.start_offset_s);
+        } else {
+            let _ = writeln!(s, "\nmodes (times from the bag's first message):");
+        }
         if self.mode_timeline.is_empty() {
             let _ = writeln!(s, "  (no search state published)");
         }
@@ -369,6 +388,12 @@ impl Summary {
             }
             if self.warnings_dropped > 0 {
                 let _ = writeln!(s, "  ... and {} more", self.warnings_dropped);
+            }
+        }
+        if !self.integrity.is_empty() {
+            let _ = writeln!(s, "\nINPUT DAMAGED:");
+            for l in &self.integrity {
+                let _ = writeln!(s, "  {l}");
             }
         }
         if let Some(e) = &self.interrupted {
