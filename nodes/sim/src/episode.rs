@@ -15,7 +15,7 @@
 //!
 //! Outcomes: a correct declaration ends the episode (success). A false declaration is counted;
 //! then, unless `stop_on_false_declaration`, the runner plays the operator and sends
-//! `e_stop_reset`, which makes the arbiter forget the declaration and search again. The
+//! `search_restart`, which makes the arbiter forget the declaration and search again. The
 //! episode also ends at the time limit, or as *stalled* when the arbiter stays HALTED for
 //! `halt_timeout` (a terminal failure: inputs stopped or the e-stop latched).
 
@@ -189,7 +189,7 @@ struct Topics {
     search_state: String,
     source_estimate: String,
     chem: String,
-    e_stop_reset: String,
+    search_restart: String,
 }
 
 /// Records flowing out of the executor: metrics, commands for the world, and the caller's sink.
@@ -274,7 +274,7 @@ impl Sim {
             search_state: r("search_state"),
             source_estimate: r("source_estimate"),
             chem: world_topics[crate::world_node::OUT_CHEM].clone(),
-            e_stop_reset: r("e_stop_reset"),
+            search_restart: r("search_restart"),
         };
         let t0: Nanos = 0;
         let tick = world.timers()[0];
@@ -348,8 +348,8 @@ impl Sim {
                 if self.options.stop_on_false_declaration {
                     break Outcome::FalseDeclaration;
                 }
-                let reset = Msg::Empty(Empty::default());
-                inject(&mut ex, t, &topics.e_stop_reset, "(operator)", reset, &mut tap, spec.index)?;
+                let restart = Msg::Empty(Empty::default());
+                inject(&mut ex, t, &topics.search_restart, "(operator)", restart, &mut tap, spec.index)?;
             }
             if let Some((SearchState::HALTED, since)) = tap.log.mode() {
                 if t - since >= halt_timeout {
