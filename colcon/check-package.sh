@@ -10,7 +10,7 @@ repo=$(cd "$(dirname "$0")/.." && pwd)
 command -v cmake >/dev/null || { echo "check-package: cmake is not installed (apt-get install -y cmake)" >&2; exit 1; }
 stub=$(mktemp -d)
 trap 'rm -rf "$stub"' EXIT
-for p in ament_cmake sillage_msgs std_msgs builtin_interfaces geometry_msgs sensor_msgs nav_msgs diagnostic_msgs rosgraph_msgs rcl_interfaces; do
+for p in ament_cmake sillage_msgs std_msgs builtin_interfaces geometry_msgs sensor_msgs nav_msgs diagnostic_msgs rosgraph_msgs rcl_interfaces std_srvs; do
   mkdir -p "$stub/prefix/share/$p/cmake"
   printf 'macro(ament_package)\nendmacro()\n' > "$stub/prefix/share/$p/cmake/${p}Config.cmake"
 done

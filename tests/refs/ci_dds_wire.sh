@@ -1,7 +1,9 @@
 #!/usr/bin/env bash
 # Wire test of the DDS executor (nodes/dds, `sillage_dds`) against an independent DDS
 # implementation: Cyclone DDS from PyPI (`cyclonedds`, pinned in requirements.txt) plays the
-# scene of tests/refs/dds_wire_peer.py into the running stack and checks what comes back.
+# scene of tests/refs/dds_wire_peer.py into the running stack and checks what comes back,
+# including an e-stop publisher of each QoS combination (reliable or best effort, volatile or
+# transient local) and the time from its e-stop to a zero twist.
 # Called by .ci/run (tests/refs/ci_*.sh); needs root for `ip netns`.
 #
 # Isolation: both peers run in a network namespace made here (loopback only, multicast on,
@@ -114,12 +116,15 @@ fi
 # --- 5. the scene -------------------------------------------------------------------------
 t=$SECONDS
 set +e
-ip netns exec "$ns" timeout 150 "$python" "$here/dds_wire_peer.py" --domain "$domain" --namespace "$namespace" \
-    --odom-topic odom_filtered --params "$params" --budget 90 --report "$work/report.json"
+ip netns exec "$ns" timeout 240 "$python" "$here/dds_wire_peer.py" --domain "$domain" --namespace "$namespace" \
+    --odom-topic odom_filtered --params "$params" --budget 150 --report "$work/report.json"
 peer_rc=$?
 set -e
 scene_s=$((SECONDS - t))
 check "the peer's checks" "$peer_rc" "dds_wire_peer.py exited with $peer_rc"
+if [[ -f "$work/report.json" ]]; then
+    say "e-stop to zero twist [ms] per publisher QoS: $(python3 -c 'import json, sys; print(json.load(open(sys.argv[1])).get("e_stop_latency_ms"))' "$work/report.json")"
+fi
 
 # --- 6. sillage survived, stops cleanly on SIGTERM, and logged every kind of bad input ----
 alive=1

@@ -13,6 +13,11 @@ against a real robot. The scene (simulated time, published here on /clock):
   3. e-stop   e_stop = true in the middle of another flood: a zero twist at once and mode
               HALTED;
   4. after    more wrong-type and malformed e-stop samples: still halted, still zero.
+  5. e-stop QoS  an e-stop publisher of each of the four QoS combinations a user may have
+              (reliable or best effort, volatile or transient local), each in a participant
+              of its own: it must match sillage's e_stop subscription; then, with the robot
+              moving again (e_stop = false and e_stop_reset), its e_stop = true must bring a
+              zero twist; the time from the write to the first zero twist is measured.
 
 Each check prints PASS/FAIL with its numbers; the last line is "wire: N passed, M failed".
 Documented behaviour relied on (nodes/arbiter/src/lib.rs and node.rs): e_stop = true zeroes
@@ -406,8 +411,56 @@ def main() -> int:
     counters, _ = peer.transport()
     rep.check("after: sillage still reports diagnostics", counters is not None and peer.diags[-1][0] > peer.wall() - 2.5, f"last diagnostics {round(peer.wall() - peer.diags[-1][0], 2) if peer.diags else None} s ago; counters {counters}")
 
+    # 5. an e-stop publisher of every QoS combination ---------------------------------------
+    reset_w = DataWriter(peer.dp, Topic(peer.dp, f"rt{peer.ns}/e_stop_reset", T.Empty), RELIABLE)
+    latencies = {}
+    for rel_name, rel in (("reliable", Policy.Reliability.Reliable(max_blocking_time=0)), ("best effort", Policy.Reliability.BestEffort)):
+        for dur_name, dur in (("volatile", Policy.Durability.Volatile), ("transient local", Policy.Durability.TransientLocal)):
+            name = f"{rel_name} + {dur_name}"
+            dp = DomainParticipant(a.domain)
+            w = DataWriter(dp, Topic(dp, f"rt{peer.ns}/e_stop", T.Bool), Qos(rel, Policy.History.KeepLast(1), dur, XCDR1))
+            matched = 0
+            for _ in range(200):
+                matched = w.get_publication_matched_status().current_count
+                if matched >= 1 and reset_w.get_publication_matched_status().current_count >= 1:
+                    break
+                peer.run(0.05, x=0.0)
+            rep.check(f"e-stop QoS {name}: the publisher matches sillage's subscription", matched >= 1, f"matched subscriptions {matched}")
+            # Release the latch (false, then reset) and wait until the robot moves again. The
+            # e-stop state is repeated every 0.1 s, as sillage asks of e-stop publishers: the
+            # first samples after a match may be lost while the reader side still discovers.
+            n0 = len(peer.cmds)
+            for k in range(100):
+                w.write(T.Bool(False))
+                if k >= 3:
+                    reset_w.write(T.Empty())
+                peer.run(0.1, x=0.0)
+                if any(not is_zero(c[2]) for c in peer.cmds[n0:]):
+                    break
+            moving_again = any(not is_zero(c[2]) for c in peer.cmds[n0:])
+            state_before = f"{MODES.get(peer.states[-1][1].mode)}: {peer.states[-1][1].reason}" if peer.states else "no state"
+            for _ in range(5):
+                w.write(T.Bool(False))
+                peer.run(0.1, x=0.0)
+            n1 = len(peer.cmds)
+            t_press = peer.wall()
+            for _ in range(10):
+                w.write(T.Bool(True))
+                peer.run(0.1, x=0.0)
+            first = next((c for c in peer.cmds[n1:] if is_zero(c[2])), None)
+            late = [c for c in peer.cmds[n1:] if c[0] > t_press + 0.3]
+            held = bool(late) and all(is_zero(c[2]) for c in late)
+            lat = None if first is None else round((first[0] - t_press) * 1000, 1)
+            latencies[name] = lat
+            rep.check(
+                f"e-stop QoS {name}: e_stop = true brings a zero twist",
+                moving_again and first is not None and lat < 1000 and held,
+                f"moving before the press: {moving_again} ({state_before}); first zero twist {lat} ms after the write; all zero from 300 ms on: {held}",
+            )
+    print(f"e-stop to zero twist [ms] per publisher QoS: {json.dumps(latencies)}", flush=True)
+
     if a.report:
-        Path(a.report).write_text(json.dumps({"checks": rep.rows, "sent": peer.sent, "commands": len(peer.cmds), "states": len(peer.states)}, indent=1))
+        Path(a.report).write_text(json.dumps({"checks": rep.rows, "sent": peer.sent, "commands": len(peer.cmds), "states": len(peer.states), "e_stop_latency_ms": latencies}, indent=1))
     n_fail = rep.failed()
     print(f"wire: {len(rep.rows) - n_fail} passed, {n_fail} failed", flush=True)
     return 1 if n_fail else 0

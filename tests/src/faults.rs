@@ -370,7 +370,8 @@ pub struct Violation {
 /// - caps: `-max_reverse <= linear.x`, `|(linear.x, linear.y)| <= max_linear`,
 ///   `|angular.z| <= max_angular`;
 /// - rate limits between consecutive commands with `dt = clamp(t - t_prev, 0, period)`: an axis
-///   speeding up by at most `accel * dt`, slowing down by at most `decel * dt`, crossing zero
+///   speeding up by at most `accel * dt`, slowing down by at most `decel * period` (braking is
+///   always allowed one control period, nodes/arbiter/src/guard/limiter.rs), crossing zero
 ///   within `|p| / decel + |v| / accel <= dt` (the usual velocity-smoother rule, common
 ///   practice); exempt are commands at instants in `exempt` (the e-stop's immediate zero).
 ///
@@ -414,7 +415,7 @@ pub fn check_guard(cmds: &[(Nanos, [f64; 3])], g: &GuardParams, period: f64, exe
                         if v.abs() >= p.abs() {
                             v.abs() - p.abs() <= acc * dt + tol(p, v)
                         } else {
-                            p.abs() - v.abs() <= dec * dt + tol(p, v)
+                            p.abs() - v.abs() <= dec * period + tol(p, v)
                         }
                     } else {
                         p.abs() / dec + v.abs() / acc <= dt + tol(p, v) * (1.0 / dec + 1.0 / acc)

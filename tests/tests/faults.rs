@@ -382,3 +382,195 @@ fn a_bag_loop_keeps_the_plume_estimator_fed() {
     assert!(known_again, "plume_features still NaN 20 s after the loop; plume_estimator: input says '{}' (out_of_order {:?})", pin.message, diag_value(pin, "out_of_order"));
     assert_eq!(diag_value(pin, "backward_resets"), Some("1"), "the plume estimator restarts at the loop");
 }
+
+// --- the guard fails closed ---------------------------------------------------------------
+
+/// [`PARAMS`] with more arbiter keys (`extra`, indented under `ros__parameters`).
+fn params_with(extra: &str) -> String {
+    format!("{PARAMS}{extra}")
+}
+
+fn zero(c: &[f64; 3]) -> bool {
+    c.iter().all(|v| *v == 0.0)
+}
+
+/// Laser scans on `/scan` every 0.1 s in `[from, to)`: 31 beams over +-1.5 rad, range_min
+/// 0.05 m, range_max 10 m, every range `r` (REP 117 values: NaN, or below range_min, allowed).
+fn with_scans(mut st: Stream, from: Nanos, to: Nanos, r: f32) -> Stream {
+    let mut t = from;
+    while t < to {
+        let m = sillage_core::msg::LaserScan {
+            header: sillage_core::msg::Header::new(t, "laser"),
+            angle_min: -1.5,
+            angle_max: 1.5,
+            angle_increment: 0.1,
+            range_min: 0.05,
+            range_max: 10.0,
+            ranges: vec![r; 31],
+            ..Default::default()
+        };
+        st = insert(st, t, "/scan", Msg::LaserScan(Box::new(m)));
+        t += S / 10;
+    }
+    st
+}
+
+#[test]
+fn an_e_stop_never_heard_keeps_the_robot_halted_unless_the_robot_has_none() {
+    let (st, t0) = demo();
+    let silent: Stream = st.into_iter().filter(|m| m.topic != "/e_stop").collect();
+    let r = go(&silent);
+    let cmds = r.cmd_vels();
+    assert!(cmds.len() > 500 && cmds.iter().all(|(_, c)| zero(c)), "motion without an e-stop ever heard");
+    let states = r.states();
+    assert!(!states.is_empty() && states.iter().all(|(_, s)| s.mode == HALTED && s.reason.contains("e_stop never heard")), "{:?}", states.last());
+    // A robot declared to have no e-stop topic moves on the same inputs.
+    let r = run(&silent, Some(&params_with("    e_stop:\n      required: false\n")), 2 * S).expect("runs");
+    let moving = r.cmd_vels().iter().filter(|(t, c)| *t > t0 + 5 * S && !zero(c)).count();
+    assert!(moving > 100, "{moving} non-zero commands with e_stop.required: false");
+}
+
+#[test]
+fn a_silent_e_stop_heartbeat_halts_and_resumes() {
+    let (st, t0) = demo();
+    let (from, to) = (t0 + 30 * S, t0 + 40 * S);
+    let st = drop_window(st, "/e_stop", from, to);
+    let (last, back) = around(&st, "/e_stop", from);
+    let r = run(&st, Some(&params_with("    watchdog:\n      e_stop: 1.5\n")), 2 * S).expect("runs");
+    let (th, s) = r.first_state(last, HALTED).expect("HALTED when the heartbeat stops");
+    assert!(s.reason.contains("e_stop stale"), "{}", s.reason);
+    let waited = secs(th - last);
+    assert!(waited > 1.5 && waited <= 1.5 + arbiter_params().period() + 1e-9, "halted {waited:.3} s after the last e_stop");
+    let back = back.expect("the heartbeat comes back");
+    let resumed = r.states().into_iter().find(|(t, s)| *t > th && s.mode != HALTED).expect("resumes");
+    assert!(resumed.0 > back && secs(resumed.0 - back) <= arbiter_params().period() + 1e-9);
+    println!("e-stop heartbeat: last {:.2} s, HALTED {:.2} s, back {:.2} s, resumed {:.2} s", rel(last, t0), rel(th, t0), rel(back, t0), rel(resumed.0, t0));
+}
+
+#[test]
+fn a_blinded_laser_halts_and_readings_below_range_min_stop_forward_motion() {
+    let (st, t0) = demo();
+    let end = st.last().map(|m| m.at).expect("inputs");
+    let st = with_scans(st, t0 + 2 * S, t0 + 25 * S, 5.0);
+    let st = with_scans(st, t0 + 25 * S, t0 + 30 * S, f32::NAN);
+    let st = with_scans(st, t0 + 30 * S, t0 + 40 * S, 5.0);
+    let st = with_scans(st, t0 + 40 * S, t0 + 45 * S, 0.01);
+    let st = with_scans(st, t0 + 45 * S, end + S, 5.0);
+    let r = go(&st);
+    let p = arbiter_params();
+    let cmds = r.cmd_vels();
+    let moving = |a: Nanos, b: Nanos| cmds.iter().filter(|(t, c)| (a..b).contains(t) && c[0] > 0.0).count();
+    assert!(moving(t0 + 10 * S, t0 + 25 * S) > 50, "the robot moves forward with a clear scan");
+    // All NaN in the guarded sector: HALTED with the reason, zero after the ramp-down.
+    let (tb, s) = r.first_state(t0 + 25 * S, HALTED).expect("HALTED when blinded");
+    assert!(s.reason.starts_with("scan blinded toward 0 deg: 0 of 11 beams valid"), "{}", s.reason);
+    assert!(secs(tb - t0 - 25 * S) <= p.period() + 1e-9, "halted {:.3} s after the first blind scan", secs(tb - t0 - 25 * S));
+    let ramp = s_of(p.guard.max_linear / p.guard.max_linear_decel + p.period());
+    let blind_moving: Vec<_> = cmds.iter().filter(|(t, c)| (tb + ramp..t0 + 30 * S).contains(t) && !zero(c)).collect();
+    assert!(blind_moving.is_empty(), "motion while blinded: {:?}", &blind_moving[..blind_moving.len().min(3)]);
+    assert!(moving(t0 + 31 * S, t0 + 40 * S) > 20, "moves again once the scan is clear");
+    // Readings below range_min (0.01 < 0.05 m): an obstacle at 0 m, forward motion cut at once.
+    let first = cmds.iter().find(|(t, _)| *t > t0 + 40 * S).expect("a command");
+    assert_eq!(first.1[0], 0.0, "the tick after the close reading: {first:?}");
+    assert_eq!(moving(t0 + 40 * S + 1, t0 + 45 * S), 0, "forward motion toward a too-close obstacle");
+    let guard: Vec<_> = r.diagnostics("arbiter: guard").into_iter().filter(|(t, _)| (t0 + 26 * S..t0 + 30 * S).contains(t)).collect();
+    assert!(!guard.is_empty() && guard.iter().all(|(_, d)| d.level == DiagnosticStatus::ERROR && d.message.contains("blinded")), "guard diagnostics while blinded");
+}
+
+#[test]
+fn caps_above_the_declared_limits_are_refused_at_start_at_run_time_and_by_check() {
+    use sillage_core::NodeCore;
+    let (st, _) = demo();
+    let fast = PARAMS.replace("max_linear: 0.2", "max_linear: 1.0e9");
+    let e = run(&st, Some(&fast), 2 * S).expect_err("1e9 m/s is refused");
+    let msg = e.to_string();
+    assert!(msg.contains("guard.max_linear") && msg.contains("limits.max_linear"), "{msg}");
+    // At run time: lowering and raising up to the ceiling pass; above it, and the ceiling
+    // itself, are refused with the key named.
+    let mut a = sillage_arbiter::Arbiter::new(arbiter_params()).expect("valid");
+    let set = |a: &mut sillage_arbiter::Arbiter, y: &str| a.set_params_yaml(&serde_yaml::from_str(y).expect("yaml")).map_err(|e| e.to_string());
+    assert_eq!(set(&mut a, "guard:\n  max_linear: 0.5\n"), Ok(()));
+    let e = set(&mut a, "guard:\n  max_linear: 1.5\n").expect_err("above the ceiling");
+    assert!(e.contains("guard.max_linear") && e.contains("limits.max_linear = 1"), "{e}");
+    assert_eq!(a.params().guard.max_linear, 0.5, "a refused change changes nothing");
+    let e = set(&mut a, "limits:\n  max_linear: 5.0\n").expect_err("the ceiling is fixed");
+    assert!(e.contains("limits.max_linear") && e.contains("start-up"), "{e}");
+    // sillage check: the same refusal as an error, and a warning beyond common practice.
+    let file = "arbiter:\n  ros__parameters:\n    limits:\n      max_linear: 3.0\n    guard:\n      max_linear: 2.5\n";
+    let p = sillage_ros2::check::params_file::check_text(file, "fast.yaml");
+    let text: Vec<String> = p.iter().map(ToString::to_string).collect();
+    assert!(p.iter().all(|x| !x.is_error()), "{text:#?}");
+    assert!(text.iter().any(|m| m.contains("limits.max_linear: warning: 3 m/s") && m.contains("common practice")), "{text:#?}");
+    assert!(text.iter().any(|m| m.contains("guard.max_linear: warning: 2.5 m/s")), "{text:#?}");
+    let p = sillage_ros2::check::params_file::check_text(&fast.replace("max_linear: 1.0e9", "max_linear: 1000000000.0"), "fast.yaml");
+    assert!(p.iter().any(|x| x.is_error() && x.to_string().contains("limits.max_linear")), "{p:?}");
+}
+
+#[test]
+fn after_a_step_back_of_the_node_clock_the_limiter_brakes_instead_of_repeating() {
+    use sillage_core::msg::*;
+    use sillage_core::NodeCore;
+    // The executors never run their clock back, so the core is driven directly: odor
+    // everywhere, wind from ahead, moving after 5 s; then its clock steps back by 10 s (a
+    // restarted simulation).
+    let mut a = sillage_arbiter::Arbiter::new(arbiter_params()).expect("valid");
+    let mut out = sillage_core::Outbox::new();
+    let t0 = 20 * S;
+    a.on_message(t0, 5, &Msg::Bool(Bool { data: false }), &mut out);
+    for k in 0..50 {
+        let t = t0 + k * S / 10;
+        let mut odom = Odometry { header: Header::new(t, "odom"), child_frame_id: "base_link".into(), ..Default::default() };
+        odom.pose.pose.orientation = Quaternion::from_yaw(0.0);
+        a.on_message(t, 4, &Msg::Odometry(Box::new(odom)), &mut out);
+        a.on_message(t, 3, &Msg::Vector3Stamped(Vector3Stamped { header: Header::new(t, "base_link"), vector: Vector3 { x: -1.0, y: 0.0, z: 0.0 } }), &mut out);
+        let e = OdorEvent { stamp: Time::from_nanos(t), channel: 0, polarity: OdorEvent::RISING, level: 1.0 };
+        a.on_message(t, 2, &Msg::OdorEventArray(OdorEventArray { header: Header::new(t, ""), events: vec![e] }), &mut out);
+        let f = PlumeFeatures { header: Header::new(t, ""), window: 5.0, bouts: 1, bout_rate: 0.5, bout_amplitude: 1.0, intermittency: 0.2, distance: f64::NAN, distance_sigma: f64::NAN, edge_index: f64::NAN };
+        a.on_message(t, 1, &Msg::PlumeFeatures(f), &mut out);
+        a.on_message(t, 0, &Msg::OdorBearing(OdorBearing { header: Header::new(t, "base_link"), bearing: 0.0, lag: 0.0, confidence: 0.0, cue: OdorBearing::NONE }), &mut out);
+        a.on_timer(t, 0, &mut out);
+    }
+    let before = a.last_command();
+    assert!(before.vx > 0.0, "moving before the step: {before:?} ({})", a.reason());
+    a.on_timer(t0 - 10 * S, 0, &mut out);
+    let after = a.last_command();
+    assert_eq!(a.mode(), sillage_arbiter::Mode::Halted, "{}", a.reason());
+    // One nominal period of braking (max_linear_decel * period), not a repeat of `before`.
+    let p = arbiter_params();
+    let want = (before.vx - p.guard.max_linear_decel * p.period()).max(0.0);
+    assert!((after.vx - want).abs() < 1e-9, "{before:?} -> {after:?}, want vx {want}");
+}
+
+#[test]
+fn e_stop_reset_and_search_restart_do_nothing_out_of_their_case() {
+    // e_stop_reset with nothing latched and search_restart with nothing declared: the commands
+    // are those of the clean run, bit for bit.
+    let (st, t0) = demo();
+    let clean = go(&st).cmd_vels();
+    let st2 = insert(st.clone(), t0 + 20 * S + 50_000_000, "/e_stop_reset", Msg::Empty(Empty::default()));
+    let st2 = insert(st2, t0 + 25 * S + 50_000_000, "/search_restart", Msg::Empty(Empty::default()));
+    assert_eq!(go(&st2).cmd_vels(), clean);
+    // search_restart while the e-stop is latched is refused: still halted after it.
+    let st3 = insert(st, t0 + 20 * S + 50_000_000, "/e_stop", Msg::Bool(sillage_core::msg::Bool { data: true }));
+    let st3 = insert(st3, t0 + 25 * S + 50_000_000, "/search_restart", Msg::Empty(Empty::default()));
+    let r = go(&st3);
+    assert!(r.cmd_vels().iter().filter(|(t, _)| *t > t0 + 21 * S).all(|(_, c)| zero(c)));
+    let (_, d) = r.diagnostics("arbiter: inputs").into_iter().last().expect("diagnostics");
+    let text = format!("{} {:?}", d.message, d.values);
+    assert!(text.contains("search_restart refused: the e-stop is latched"), "{text}");
+}
+
+#[test]
+fn check_follows_the_launch_files_parameter_files_with_given_arguments() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
+    let launch = root.join("launch/robot.launch.xml");
+    let errors = |v: &[sillage_ros2::check::Problem]| v.iter().filter(|p| p.is_error()).map(ToString::to_string).collect::<Vec<_>>();
+    // The default params_file (config/sillage.yaml) is followed and passes.
+    assert_eq!(errors(&sillage_ros2::check::launch_file::check_file(&launch)), Vec::<String>::new());
+    let bad = std::env::temp_dir().join(format!("sillage-bad-caps-{}.yaml", std::process::id()));
+    std::fs::write(&bad, "/**:\n  ros__parameters:\n    guard:\n      max_linear: -0.3\n").expect("write");
+    let given = [("params_file".to_string(), bad.display().to_string())];
+    let e = errors(&sillage_ros2::check::launch_file::check_file_with(&launch, &given));
+    let _ = std::fs::remove_file(&bad);
+    assert!(e.iter().any(|m| m.contains("sillage-bad-caps") && m.contains("guard.max_linear")), "{e:#?}");
+}

@@ -47,6 +47,8 @@ pub fn report(a: &Arbiter, now: Nanos, out: &mut Vec<DiagnosticStatus>) {
     let f = g.last_flags;
     let (level, msg) = if g.latch.is_latched() {
         (DiagnosticStatus::ERROR, if g.latch.is_cleared() { "e-stop latched: waiting for e_stop_reset" } else { "e-stop latched" })
+    } else if f.blinded.is_some() {
+        (DiagnosticStatus::ERROR, "scan blinded toward the motion: no motion")
     } else if f.obstacle_stop {
         (DiagnosticStatus::WARN, "obstacle stop")
     } else if f.fence.is_some() {
@@ -68,8 +70,9 @@ pub fn report(a: &Arbiter, now: Nanos, out: &mut Vec<DiagnosticStatus>) {
         kv("nonfinite_commands", g.counts.nonfinite),
         kv("fence_interventions", g.counts.fence),
         kv("obstacle_stops", g.counts.obstacle_stops),
+        kv("blinded", g.counts.blinded),
         kv("limited_commands", g.counts.limited),
-        kv("nearest_obstacle", a.nearest.map(|d| format!("{d:.3}")).unwrap_or_else(|| "none".into())),
+        kv("nearest_obstacle", a.scan.as_ref().map(|s| format!("{:.3}", s.sector(0.0, a.params.obstacle.sector_half_angle).nearest)).unwrap_or_else(|| "none".into())),
     ];
     out.push(DiagnosticStatus::with(level, "arbiter: guard", msg, &values));
 

@@ -14,9 +14,13 @@
 //!   (uncalibrated) or finite >= 0; sigma not negative (NaN or +inf: distance unusable).
 //! - `odor_events`: every polarity is +1 or -1.
 //! - `scan`: finite non-zero `angle_increment`, finite `angle_min`, `0 <= range_min <
-//!   range_max`, and at least one beam inside the forward sector. In the sector (REP 117):
-//!   NaN and finite readings outside [range_min, range_max] are ignored, +inf is a clear beam,
-//!   -inf an object too close to measure (distance 0).
+//!   range_max`, and at least one beam. Each beam is kept with its angle in base_link and a
+//!   class ([`Beam`]), following REP 117: +inf is a valid clear beam; -inf (too close to
+//!   measure) and finite readings below `range_min` are valid obstacles at distance 0 (a
+//!   scanner reports what it cannot resolve up close as short, never as clear); NaN and finite
+//!   readings above `range_max` are invalid. The guard asks for the sector around the
+//!   commanded direction of motion ([`ScanObs::sector`]): a sector with too few valid beams is
+//!   blinded, and blinded means no motion.
 
 use crate::error::ArbiterError;
 use crate::geometry::{wrap_angle, Pose2, Vec2};
@@ -43,10 +47,12 @@ pub enum Input {
     EStopReset = 6,
     /// `scan` (LaserScan).
     Scan = 7,
+    /// `search_restart` (Empty): search again after a declaration.
+    SearchRestart = 8,
 }
 
 /// Number of inputs.
-pub const INPUTS: usize = 8;
+pub const INPUTS: usize = 9;
 
 impl Input {
     /// Every input in port order.
@@ -59,6 +65,7 @@ impl Input {
         Input::EStop,
         Input::EStopReset,
         Input::Scan,
+        Input::SearchRestart,
     ];
 
     /// The input at port index `i`.
@@ -82,6 +89,7 @@ impl Input {
             Input::EStop => "e_stop",
             Input::EStopReset => "e_stop_reset",
             Input::Scan => "scan",
+            Input::SearchRestart => "search_restart",
         }
     }
 }
@@ -246,8 +254,73 @@ pub fn events(m: &OdorEventArray, min_level: f64) -> Result<EventsObs, ArbiterEr
     Ok(EventsObs { rising })
 }
 
-/// Checks a scan and returns the nearest valid range in the forward sector [m] (+inf: clear).
-pub fn scan_sector(m: &LaserScan, p: &ObstacleParams) -> Result<f64, ArbiterError> {
+/// One beam of a scan, classified (REP 117).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Beam {
+    /// A valid range [m] (0 for -inf or a reading below `range_min`; +inf: nothing in range).
+    Valid(f64),
+    /// NaN or a finite reading above `range_max`: says nothing.
+    Invalid,
+}
+
+/// A checked scan: every beam with its angle in base_link [rad, (-pi, pi]].
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct ScanObs {
+    /// (angle in base_link [rad], beam).
+    pub beams: Vec<(f64, Beam)>,
+}
+
+/// What a scan says about one sector.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Sector {
+    /// Centre of the sector in base_link [rad].
+    pub direction: f64,
+    /// Beams inside the sector.
+    pub beams: usize,
+    /// Valid beams among them.
+    pub valid: usize,
+    /// Nearest valid range [m] (+inf: clear or no valid beam).
+    pub nearest: f64,
+}
+
+impl Sector {
+    /// The fraction of valid beams [0..1] (0 for a sector without beams).
+    pub fn valid_fraction(&self) -> f64 {
+        if self.beams == 0 {
+            0.0
+        } else {
+            self.valid as f64 / self.beams as f64
+        }
+    }
+
+    /// Whether fewer than `min_fraction` of the sector's beams are valid (a sector without
+    /// beams is blinded whatever `min_fraction`).
+    pub fn blinded(&self, min_fraction: f64) -> bool {
+        self.beams == 0 || self.valid_fraction() < min_fraction
+    }
+}
+
+impl ScanObs {
+    /// The sector of half-angle `half` [rad] centred on `direction` [rad, base_link].
+    pub fn sector(&self, direction: f64, half: f64) -> Sector {
+        let mut out = Sector { direction, beams: 0, valid: 0, nearest: f64::INFINITY };
+        for &(angle, beam) in &self.beams {
+            if wrap_angle(angle - direction).abs() > half {
+                continue;
+            }
+            out.beams += 1;
+            if let Beam::Valid(r) = beam {
+                out.valid += 1;
+                out.nearest = out.nearest.min(r);
+            }
+        }
+        out
+    }
+}
+
+/// Checks a scan and classifies its beams, with their angles turned into base_link by
+/// `obstacle.scan_yaw`.
+pub fn scan(m: &LaserScan, p: &ObstacleParams) -> Result<ScanObs, ArbiterError> {
     let t = Input::Scan.topic();
     let inc = f64::from(m.angle_increment);
     if !inc.is_finite() || inc == 0.0 {
@@ -261,25 +334,29 @@ pub fn scan_sector(m: &LaserScan, p: &ObstacleParams) -> Result<f64, ArbiterErro
     if !(rmin.is_finite() && rmax.is_finite() && rmin >= 0.0 && rmax > rmin) {
         return Err(ArbiterError::field(t, "range_min/range_max", format!("{rmin}/{rmax}"), "need 0 <= range_min < range_max"));
     }
-    let mut beams = 0usize;
-    let mut nearest = f64::INFINITY;
-    for (i, &r) in m.ranges.iter().enumerate() {
-        let angle = wrap_angle(a0 + inc * i as f64 + p.scan_yaw);
-        if angle.abs() > p.sector_half_angle {
-            continue;
-        }
-        beams += 1;
-        let r = f64::from(r);
-        if r == f64::NEG_INFINITY {
-            nearest = 0.0;
-        } else if r.is_finite() && r >= rmin && r <= rmax {
-            nearest = nearest.min(r);
-        }
+    if m.ranges.is_empty() {
+        return Err(ArbiterError::field(t, "ranges", 0, "no beam at all"));
     }
-    if beams == 0 {
-        return Err(ArbiterError::field(t, "ranges", m.ranges.len(), "no beam inside the forward sector"));
-    }
-    Ok(nearest)
+    let beams = m
+        .ranges
+        .iter()
+        .enumerate()
+        .map(|(i, &r)| {
+            let angle = wrap_angle(a0 + inc * i as f64 + p.scan_yaw);
+            let r = f64::from(r);
+            let beam = if r == f64::INFINITY {
+                Beam::Valid(f64::INFINITY)
+            } else if r == f64::NEG_INFINITY || (r.is_finite() && r < rmin) {
+                Beam::Valid(0.0)
+            } else if r.is_finite() && r <= rmax {
+                Beam::Valid(r)
+            } else {
+                Beam::Invalid
+            };
+            (angle, beam)
+        })
+        .collect();
+    Ok(ScanObs { beams })
 }
 
 /// Outcome of the per-topic stamp check.
@@ -335,7 +412,7 @@ impl StampOrder {
 mod tests {
     use super::*;
 
-    fn scan(ranges: Vec<f32>) -> LaserScan {
+    fn laser(ranges: Vec<f32>) -> LaserScan {
         LaserScan {
             angle_min: -1.0,
             angle_max: 1.0,
@@ -347,21 +424,39 @@ mod tests {
         }
     }
 
+    fn forward(m: &LaserScan, p: &ObstacleParams) -> Sector {
+        super::scan(m, p).expect("valid scan").sector(0.0, p.sector_half_angle)
+    }
+
     #[test]
-    fn scan_sector_follows_rep117_special_values() {
+    fn scan_sectors_follow_rep117_special_values() {
         // 5 beams at -1, -0.5, 0, 0.5, 1 rad; the default sector is |angle| <= 0.5.
         let p = ObstacleParams::default();
-        assert_eq!(scan_sector(&scan(vec![0.2, 5.0, 3.0, 4.0, 0.2]), &p), Ok(3.0));
-        // REP 117: +inf = nothing in range, NaN = erroneous (ignored), -inf = too close.
-        assert_eq!(scan_sector(&scan(vec![0.2, f32::INFINITY, f32::NAN, 0.05, 0.2]), &p), Ok(f64::INFINITY));
-        assert_eq!(scan_sector(&scan(vec![9.0, 9.0, f32::NEG_INFINITY, 9.0, 9.0]), &p), Ok(0.0));
+        let s = forward(&laser(vec![0.2, 5.0, 3.0, 4.0, 0.2]), &p);
+        assert_eq!((s.nearest, s.beams, s.valid), (3.0, 3, 3));
+        // REP 117: +inf = nothing in range (valid, clear), NaN = erroneous (invalid), -inf and
+        // readings below range_min = too close to measure (an obstacle at 0).
+        let s = forward(&laser(vec![0.2, f32::INFINITY, f32::NAN, 20.0, 0.2]), &p);
+        assert_eq!((s.nearest, s.beams, s.valid), (f64::INFINITY, 3, 1));
+        assert!(s.blinded(0.5), "1 of 3 valid is under one half");
+        assert_eq!(forward(&laser(vec![9.0, 9.0, f32::NEG_INFINITY, 9.0, 9.0]), &p).nearest, 0.0);
+        assert_eq!(forward(&laser(vec![9.0, 9.0, 0.05, 9.0, 9.0]), &p).nearest, 0.0, "below range_min is an obstacle");
+        let all_nan = forward(&laser(vec![f32::NAN; 5]), &p);
+        assert_eq!((all_nan.beams, all_nan.valid), (3, 0));
+        assert!(all_nan.blinded(0.01) && all_nan.nearest == f64::INFINITY);
+        // The sector follows the direction asked for: behind the robot (pi) and to its left.
+        let m = LaserScan { angle_min: -3.0, angle_increment: 1.0, range_min: 0.1, range_max: 10.0, ranges: vec![1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0], ..Default::default() };
+        let o = super::scan(&m, &p).expect("scan");
+        assert_eq!(o.sector(std::f64::consts::PI, 0.5).nearest, 1.0, "beam at -3 rad is behind");
+        assert_eq!(o.sector(std::f64::consts::FRAC_PI_2, 0.5).nearest, 6.0, "beam at +2 rad is left");
+        assert!(o.sector(std::f64::consts::FRAC_PI_2 / 2.0, 0.1).blinded(0.0), "no beam there");
         // The scanner mounted backwards: its beam at pi is base_link's forward.
         let back = ObstacleParams { scan_yaw: std::f64::consts::PI, ..p.clone() };
         let m = LaserScan { angle_min: 3.0, angle_increment: 0.1, range_min: 0.1, range_max: 5.0, ranges: vec![1.5; 3], ..Default::default() };
-        assert_eq!(scan_sector(&m, &back), Ok(1.5));
-        let bad = LaserScan { angle_increment: 0.0, ..scan(vec![1.0, 1.0]) };
-        assert!(scan_sector(&bad, &p).is_err());
-        assert!(scan_sector(&scan(vec![]), &p).is_err());
+        assert_eq!(forward(&m, &back).nearest, 1.5);
+        let bad = LaserScan { angle_increment: 0.0, ..laser(vec![1.0, 1.0]) };
+        assert!(super::scan(&bad, &p).is_err());
+        assert!(super::scan(&laser(vec![]), &p).is_err());
     }
 
     #[test]

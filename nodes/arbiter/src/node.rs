@@ -4,7 +4,14 @@
 //! - every message is checked ([`crate::inputs`]); malformed ones are counted, diagnosed and
 //!   dropped, as are duplicated and reordered stamps; accepted ones feed their watchdog;
 //! - `e_stop = true` latches the guard and publishes a zero `cmd_vel` and a HALTED
-//!   `search_state` in the same call, not only at the next tick;
+//!   `search_state` in the same call, not only at the next tick; until one `e_stop` message
+//!   has been heard the robot stays HALTED ("e_stop never heard"), unless `e_stop.required` is
+//!   false (a robot without an e-stop topic);
+//! - `e_stop_reset` only releases the e-stop latch; `search_restart` (and only it) makes the
+//!   arbiter forget a declaration and search again (refused while the e-stop is latched, so a
+//!   restart never moves the robot by itself out of an e-stop);
+//! - a blinded guarded sector ([`crate::guard`]) halts the motion with the reason in
+//!   `search_state` (HALTED, "scan blinded ...") for as long as it lasts;
 //! - each control tick decides the mode ([`crate::modes`] precedence), steps the strategy
 //!   unless halted or declared, turns its motion into a command ([`crate::drive`]), passes it
 //!   through the guard ([`crate::guard`]) and publishes it; `search_state` goes out on every
@@ -22,8 +29,8 @@ use crate::front::FrontTracker;
 use crate::drive::{Cmd, Drive, Motion};
 use crate::error::ArbiterError;
 use crate::geometry::{wrap_angle, Vec2};
-use crate::guard::{Guard, ResetOutcome};
-use crate::inputs::{self, BearingObs, Input, OdomObs, StampOrder};
+use crate::guard::{Guard, ResetOutcome, ScanInput};
+use crate::inputs::{self, BearingObs, Input, OdomObs, ScanObs, StampOrder};
 use crate::modes::{Mode, ModeMachine};
 use crate::params::Params;
 use crate::stats::InputStats;
@@ -50,6 +57,8 @@ pub const OUT_SOURCE_ESTIMATE: usize = 2;
 pub enum HaltCause {
     /// The e-stop latch.
     EStop,
+    /// No `e_stop` message heard yet (`e_stop.required`).
+    EStopNeverHeard,
     /// These required inputs are stale.
     Stale(InputSet),
 }
@@ -82,8 +91,9 @@ pub struct Arbiter {
     odom: Option<OdomObs>,
     bearing: Option<(BearingObs, Option<f64>)>,
     last_bearing_odom: Option<f64>,
-    pub(crate) nearest: Option<f64>,
+    pub(crate) scan: Option<ScanObs>,
     scan_seen: bool,
+    e_stop_heard: bool,
     halt: Option<HaltCause>,
     note: Option<&'static str>,
     pub(crate) declared: Option<Declared>,
@@ -123,8 +133,9 @@ impl Arbiter {
             odom: None,
             bearing: None,
             last_bearing_odom: None,
-            nearest: None,
+            scan: None,
             scan_seen: false,
+            e_stop_heard: false,
             halt: None,
             note: None,
             declared: None,
@@ -279,12 +290,14 @@ impl Arbiter {
         match cause {
             HaltCause::EStop if self.guard.latch.is_cleared() => "e-stop latched: released, waiting for e_stop_reset".into(),
             HaltCause::EStop => "e-stop latched: e_stop is true".into(),
+            HaltCause::EStopNeverHeard => "e_stop never heard: no motion until the e-stop topic has published once (e_stop.required)".into(),
             HaltCause::Stale(set) => format!("watchdog: {}", self.watchdog.describe(set, &self.params.watchdog, now)),
         }
     }
 
     fn on_e_stop(&mut self, now: Nanos, pressed: bool, out: &mut Outbox) {
         self.watchdog.feed(Input::EStop, now);
+        self.e_stop_heard = true;
         self.stats.inputs[Input::EStop.index()].accepted += 1;
         let was_cleared = self.guard.latch.is_cleared();
         self.guard.latch.on_e_stop(pressed);
@@ -311,12 +324,31 @@ impl Arbiter {
                 self.stats.last_problem = Some((now, "e_stop_reset refused: e_stop has not been false since it was pressed".into()));
             }
             ResetOutcome::NotLatched => {
-                if self.declared.take().is_some() {
-                    self.strategy.reset();
-                    self.forget_evidence();
-                    self.note = Some("search restarted by e_stop_reset");
-                }
+                let what = if self.declared.is_some() { "; to search again after a declaration, use search_restart" } else { "" };
+                self.stats.last_problem = Some((now, format!("e_stop_reset ignored: the e-stop is not latched{what}")));
             }
+        }
+    }
+
+    fn on_restart(&mut self, now: Nanos) {
+        self.stats.inputs[Input::SearchRestart.index()].accepted += 1;
+        if self.guard.latch.is_latched() {
+            self.stats.last_problem = Some((now, "search_restart refused: the e-stop is latched (release it with e_stop_reset first)".into()));
+        } else if self.declared.take().is_some() {
+            self.strategy.reset();
+            self.forget_evidence();
+            self.note = Some("search restarted by search_restart");
+        } else {
+            self.stats.last_problem = Some((now, "search_restart ignored: no source declared".into()));
+        }
+    }
+
+    /// The scan as the guard sees it.
+    fn scan_input(scan: &Option<ScanObs>, in_use: bool) -> ScanInput<'_> {
+        match (scan, in_use) {
+            (_, false) => ScanInput::Unused,
+            (None, true) => ScanInput::Missing,
+            (Some(s), true) => ScanInput::Seen(s),
         }
     }
 
@@ -336,6 +368,8 @@ impl Arbiter {
         let stale = self.watchdog.stale(self.required_inputs(), &self.params.watchdog, now);
         let halt = if self.guard.latch.is_latched() {
             Some(HaltCause::EStop)
+        } else if self.params.e_stop.required && !self.e_stop_heard {
+            Some(HaltCause::EStopNeverHeard)
         } else if !stale.is_empty() || self.odom.is_none() {
             let mut s = stale;
             if self.odom.is_none() {
@@ -347,6 +381,7 @@ impl Arbiter {
         };
         let mut changed = false;
         let mut motion = Motion::Stop;
+        let mut strategy_mode: Option<(Mode, String)> = None;
         if let Some(cause) = halt {
             if self.halt != Some(cause) || self.modes.mode() != Mode::Halted {
                 let reason = self.halt_reason(cause, now);
@@ -357,6 +392,7 @@ impl Arbiter {
         } else if let Some(odom) = self.odom {
             let note = match self.halt.take() {
                 Some(HaltCause::EStop) => Some("e-stop reset"),
+                Some(HaltCause::EStopNeverHeard) => Some("e_stop heard"),
                 Some(HaltCause::Stale(_)) => Some("inputs fresh again"),
                 None => None,
             };
@@ -391,8 +427,7 @@ impl Arbiter {
                             Some(n) => format!("{n}: {}", decision.reason),
                             None => decision.reason.into_owned(),
                         };
-                        self.modes.enter(now, mode, reason);
-                        changed = true;
+                        strategy_mode = Some((mode, reason));
                     }
                     motion = decision.motion;
                 }
@@ -404,8 +439,27 @@ impl Arbiter {
             Some(p) => self.drive.command(&motion, p),
             None => Cmd::ZERO,
         };
-        let nearest = if self.scan_in_use() { Some(self.nearest.unwrap_or(0.0)) } else { None };
-        let cmd = self.guard.apply(now, target, pose.as_ref(), nearest, &self.drive);
+        let scan = Arbiter::scan_input(&self.scan, self.scan_in_use());
+        let cmd = self.guard.apply(now, target, pose.as_ref(), scan, &self.drive);
+        if let (Some(s), None) = (self.guard.last_flags.blinded, halt) {
+            // Blinded toward the commanded motion: HALTED while it lasts (the strategy keeps
+            // stepping, so the search resumes where it was once the sector is clear).
+            if self.modes.mode() != Mode::Halted {
+                let reason = format!(
+                    "scan blinded toward {:.0} deg: {} of {} beams valid (obstacle.min_valid_fraction {})",
+                    s.direction.to_degrees(),
+                    s.valid,
+                    s.beams,
+                    self.params.obstacle.min_valid_fraction
+                );
+                self.modes.enter(now, Mode::Halted, reason);
+                changed = true;
+            }
+            self.heading_target = f64::NAN;
+        } else if let Some((mode, reason)) = strategy_mode {
+            self.modes.enter(now, mode, reason);
+            changed = true;
+        }
         self.publish_cmd(now, cmd, out);
         let due = self.last_state_pub.is_none_or(|t| now.saturating_sub(t) >= nanos(self.params.state_period));
         if changed || due {
@@ -448,9 +502,10 @@ impl NodeCore for Arbiter {
             Port::of::<OdorEventArray>("odor_events", Qos::Reliable),
             Port::of::<Vector3Stamped>("wind", Qos::SensorData),
             Port::of::<Odometry>("odom", Qos::SensorData),
-            Port::of::<Bool>("e_stop", Qos::Latched),
+            Port::of::<Bool>("e_stop", Qos::Safety),
             Port::of::<Empty>("e_stop_reset", Qos::Reliable),
             Port::of::<LaserScan>("scan", Qos::SensorData),
+            Port::of::<Empty>("search_restart", Qos::Reliable),
         ]
     }
 
@@ -512,14 +567,15 @@ impl NodeCore for Arbiter {
                 self.accept(now, Input::Odom, &m.header.stamp, parsed, |s, o| s.odom = Some(o));
             }
             (Some(Input::Scan), Msg::LaserScan(m)) => {
-                let parsed = inputs::scan_sector(m, &self.params.obstacle);
+                let parsed = inputs::scan(m, &self.params.obstacle);
                 self.accept(now, Input::Scan, &m.header.stamp, parsed, |s, d| {
-                    s.nearest = Some(d);
+                    s.scan = Some(d);
                     s.scan_seen = true;
                 });
             }
             (Some(Input::EStop), Msg::Bool(b)) => self.on_e_stop(now, b.data, out),
             (Some(Input::EStopReset), Msg::Empty(_)) => self.on_reset(now),
+            (Some(Input::SearchRestart), Msg::Empty(_)) => self.on_restart(now),
             (which, other) => {
                 let expected = which.map(|i| self.inputs()[i.index()].type_name).unwrap_or("no input");
                 let e = ArbiterError::WrongType { index: input, got: other.type_name(), expected };
@@ -553,6 +609,17 @@ impl NodeCore for Arbiter {
         }
         if next.base != self.params.base {
             return Err(fixed("base"));
+        }
+        if next.limits != self.params.limits {
+            let changed = next.limits.pairs(&next.guard).into_iter().zip(self.params.limits.pairs(&next.guard)).find(|(a, b)| a.3 != b.3);
+            let key = changed.map(|(a, _)| a.2).unwrap_or("limits");
+            return Err(ParamError::Invalid {
+                key: key.to_string(),
+                reason: "is a hard ceiling of the guard caps: it can only be set at start-up (restart the node)".into(),
+            });
+        }
+        if next.e_stop != self.params.e_stop {
+            return Err(fixed("e_stop.required"));
         }
         self.reconfigure(next);
         Ok(())

@@ -4,7 +4,10 @@
 //!
 //! Start-up-only keys: `rate` and `cmd_vel_stamped` fix the timer and the output port type, and
 //! `base` must not switch under a moving robot (a holonomic base's `linear.y` would be cut
-//! without a ramp), so a run-time change of them is refused (see [`crate::Arbiter`]).
+//! without a ramp), so a run-time change of them is refused (see [`crate::Arbiter`]). So is
+//! every `limits.*` key and `e_stop.required`: the limits are the hard ceilings of the `guard.*`
+//! caps, and a run-time change of a cap above its ceiling is refused by [`NodeParams::validate`]
+//! with both keys named.
 
 use crate::geometry::Polygon;
 use serde::{Deserialize, Serialize};
@@ -369,6 +372,73 @@ impl Default for GuardParams {
     }
 }
 
+/// The robot's declared limits: hard ceilings of the `guard.*` caps (start-up only; a
+/// `guard.*` value above its ceiling is refused, at start and at run time).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct LimitsParams {
+    /// Ceiling of `guard.max_linear` [m/s].
+    pub max_linear: f64,
+    /// Ceiling of `guard.max_reverse` [m/s].
+    pub max_reverse: f64,
+    /// Ceiling of `guard.max_angular` [rad/s].
+    pub max_angular: f64,
+    /// Ceiling of `guard.max_linear_accel` [m/s^2].
+    pub max_linear_accel: f64,
+    /// Ceiling of `guard.max_linear_decel` [m/s^2].
+    pub max_linear_decel: f64,
+    /// Ceiling of `guard.max_angular_accel` [rad/s^2].
+    pub max_angular_accel: f64,
+    /// Ceiling of `guard.max_angular_decel` [rad/s^2].
+    pub max_angular_decel: f64,
+}
+
+impl Default for LimitsParams {
+    fn default() -> Self {
+        // A small indoor research base (common practice for this class of robot; set the
+        // values of your own base from its data sheet).
+        LimitsParams {
+            max_linear: 1.0,
+            max_reverse: 0.5,
+            max_angular: 2.0,
+            max_linear_accel: 1.0,
+            max_linear_decel: 2.0,
+            max_angular_accel: 4.0,
+            max_angular_decel: 8.0,
+        }
+    }
+}
+
+impl LimitsParams {
+    /// Each cap with its ceiling: (guard key, cap, limits key, ceiling).
+    pub fn pairs(&self, g: &GuardParams) -> [(&'static str, f64, &'static str, f64); 7] {
+        [
+            ("guard.max_linear", g.max_linear, "limits.max_linear", self.max_linear),
+            ("guard.max_reverse", g.max_reverse, "limits.max_reverse", self.max_reverse),
+            ("guard.max_angular", g.max_angular, "limits.max_angular", self.max_angular),
+            ("guard.max_linear_accel", g.max_linear_accel, "limits.max_linear_accel", self.max_linear_accel),
+            ("guard.max_linear_decel", g.max_linear_decel, "limits.max_linear_decel", self.max_linear_decel),
+            ("guard.max_angular_accel", g.max_angular_accel, "limits.max_angular_accel", self.max_angular_accel),
+            ("guard.max_angular_decel", g.max_angular_decel, "limits.max_angular_decel", self.max_angular_decel),
+        ]
+    }
+}
+
+/// The e-stop input.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct EStopParams {
+    /// Stay HALTED until one `e_stop` message has been heard (start-up only). Set false only
+    /// for a robot that has no e-stop topic at all.
+    pub required: bool,
+}
+
+impl Default for EStopParams {
+    fn default() -> Self {
+        EStopParams { required: true }
+    }
+}
+
 /// Input timeouts [s]: an input older than its timeout, or never received, is stale.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
@@ -395,25 +465,28 @@ impl Default for WatchdogParams {
     }
 }
 
-/// Obstacle stop on a forward sector of `scan`.
+/// Obstacle stop on the sector of `scan` toward the commanded direction of motion.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
 pub struct ObstacleParams {
     /// Require a scan from the start (else the stop is active once a scan has been received).
     pub enabled: bool,
-    /// Half-angle of the forward sector [rad] (0..pi].
+    /// Half-angle of the guarded sector around the direction of motion [rad] (0..pi].
     pub sector_half_angle: f64,
-    /// Forward motion is zeroed at once closer than this [m].
+    /// Planar motion toward an obstacle is zeroed at once closer than this [m].
     pub stop_distance: f64,
-    /// Forward speed is scaled down linearly below this [m] (>= `stop_distance`).
+    /// Planar speed is scaled down linearly below this [m] (>= `stop_distance`).
     pub slow_distance: f64,
     /// Yaw of the scanner's x axis in base_link [rad].
     pub scan_yaw: f64,
+    /// The guarded sector (centred on the commanded direction of motion) is blinded when fewer
+    /// than this fraction of its beams are valid [0..1]; blinded means no motion.
+    pub min_valid_fraction: f64,
 }
 
 impl Default for ObstacleParams {
     fn default() -> Self {
-        ObstacleParams { enabled: false, sector_half_angle: 0.5, stop_distance: 0.3, slow_distance: 0.8, scan_yaw: 0.0 }
+        ObstacleParams { enabled: false, sector_half_angle: 0.5, stop_distance: 0.3, slow_distance: 0.8, scan_yaw: 0.0, min_valid_fraction: 0.5 }
     }
 }
 
@@ -475,6 +548,10 @@ pub struct Params {
     pub declare: DeclareParams,
     /// Caps and rate limits.
     pub guard: GuardParams,
+    /// The robot's declared limits: ceilings of the caps (start-up only).
+    pub limits: LimitsParams,
+    /// The e-stop input.
+    pub e_stop: EStopParams,
     /// Input timeouts.
     pub watchdog: WatchdogParams,
     /// Obstacle stop.
@@ -524,6 +601,8 @@ impl Default for Params {
             reactive: ReactiveParams::default(),
             declare: DeclareParams::default(),
             guard: GuardParams::default(),
+            limits: LimitsParams::default(),
+            e_stop: EStopParams::default(),
             watchdog: WatchdogParams::default(),
             obstacle: ObstacleParams::default(),
             geofence: GeofenceParams::default(),
@@ -667,6 +746,14 @@ impl NodeParams for Params {
         positive(g.max_linear_decel, "guard.max_linear_decel", "m/s^2")?;
         positive(g.max_angular_accel, "guard.max_angular_accel", "rad/s^2")?;
         positive(g.max_angular_decel, "guard.max_angular_decel", "rad/s^2")?;
+        for (key, cap, limit_key, ceiling) in self.limits.pairs(g) {
+            non_negative(ceiling, limit_key, "robot limit")?;
+            ensure(
+                cap <= ceiling,
+                key,
+                format!("{cap} is above the robot's declared limit {limit_key} = {ceiling} (a hard ceiling, set at start-up)"),
+            )?;
+        }
 
         let t = &self.watchdog;
         positive(t.odor_bearing, "watchdog.odor_bearing", "s")?;
@@ -687,6 +774,7 @@ impl NodeParams for Params {
         non_negative(o.slow_distance, "obstacle.slow_distance", "m")?;
         ordered(o.stop_distance, o.slow_distance, "obstacle.stop_distance", "obstacle.slow_distance")?;
         ensure(o.scan_yaw.is_finite(), "obstacle.scan_yaw", "must be finite [rad]")?;
+        within(o.min_valid_fraction, 0.0, 1.0, "obstacle.min_valid_fraction")?;
 
         let f = &self.geofence;
         non_negative(f.margin, "geofence.margin", "m")?;

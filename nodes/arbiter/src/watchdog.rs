@@ -5,7 +5,9 @@
 //! older than its timeout. Which inputs are *required* (their staleness halts the robot):
 //! `odom`, `odor_bearing`, `plume_features`, `odor_events` always; `wind` when the strategy
 //! uses it; `scan` when `obstacle.enabled` or once a scan has been received; `e_stop` when
-//! `watchdog.e_stop` > 0 (a heartbeat). `e_stop_reset` is an event topic with no watchdog.
+//! `watchdog.e_stop` > 0 (a heartbeat). `e_stop_reset` and `search_restart` are event topics
+//! with no watchdog. (An e-stop never heard at all halts the robot by itself, see
+//! `e_stop.required` in [`crate::params::EStopParams`].)
 
 use crate::inputs::{Input, INPUTS};
 use crate::params::WatchdogParams;
@@ -68,7 +70,7 @@ impl Watchdog {
             Input::Odom => p.odom,
             Input::Scan => p.scan,
             Input::EStop => p.e_stop,
-            Input::EStopReset => 0.0,
+            Input::EStopReset | Input::SearchRestart => 0.0,
         };
         (t > 0.0).then_some(t)
     }

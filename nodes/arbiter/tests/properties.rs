@@ -1,12 +1,23 @@
 //! Property tests of the whole core over random input sequences: NaN and inf fields,
 //! duplicated, reordered and random header stamps, node-clock jumps (forward and back), e-stop
-//! toggles and resets, malformed messages, random parameters. For every published command:
+//! toggles and resets, malformed messages, random parameters, blinded scans (all NaN or out of
+//! range) and readings below `range_min`, run-time parameter changes (some above the hard
+//! ceilings), and an e-stop that may never be heard. For every published command:
 //! - every component is finite;
-//! - the caps hold (planar norm, reverse, yaw rate; differential drives never use linear.y);
-//! - each axis obeys the acceleration/deceleration limits over the allowed step
-//!   `clamp(now - t_prev, 0, period)` (reference: [`feasible`]), except for the documented
-//!   bypasses: exactly zero while the e-stop is latched, and zero forward/lateral motion while a
-//!   scanned obstacle is within the stop distance;
+//! - the caps in force hold (planar norm, reverse, yaw rate; differential drives never use
+//!   linear.y), and a run-time cap above its `limits.*` ceiling is refused (modelled below);
+//! - each axis obeys the acceleration limit over the allowed step `clamp(now - t_prev, 0,
+//!   period)` and the deceleration limit over at least one period (braking is always allowed;
+//!   a step back in time counts as one period; reference: [`feasible`]), except for the
+//!   documented bypasses: exactly zero while the e-stop is latched, zero planar motion toward
+//!   a scanned obstacle within the stop distance, and a previous command over caps lowered at
+//!   run time;
+//! - after a step back of the node's clock, a non-zero previous command is never repeated;
+//!   on a tick that leaves the node HALTED every axis brakes toward zero (or stays zero);
+//! - while the last scan is blinded (no valid beam), the planar speed never grows; while it
+//!   shows an obstacle within the stop distance (a reading below `range_min` included), no
+//!   planar motion heads into the scanned field;
+//! - until an `e_stop` message has been heard (`e_stop.required`), every command is zero;
 //! - an `e_stop = true` message yields a zero command in the same call;
 //! - the latch (modelled independently below) never releases without a reset after a false.
 //!
@@ -42,6 +53,7 @@ enum Action {
     EStop(bool),
     Reset,
     Scan(f32, bool),
+    Caps(f64, f64),
 }
 
 #[derive(Debug, Clone)]
@@ -90,7 +102,18 @@ fn action() -> impl Strategy<Value = Action> {
         3 => (num(), num(), 0u8..5).prop_map(|(b, c, cue)| Action::Bearing(b, c.abs() * 0.5, cue)),
         1 => any::<bool>().prop_map(Action::EStop),
         1 => Just(Action::Reset),
-        1 => (0.0f32..3.0, prop::bool::weighted(0.9)).prop_map(|(d, ok)| Action::Scan(d, ok)),
+        2 => (range(), prop::bool::weighted(0.9)).prop_map(|(d, ok)| Action::Scan(d, ok)),
+        1 => (0.05f64..2.0, 0.1f64..4.0).prop_map(|(lin, ang)| Action::Caps(lin, ang)),
+    ]
+}
+
+/// A scan's uniform reading: in range, NaN, below `range_min` (0.01 m) or above `range_max`.
+fn range() -> impl Strategy<Value = f32> {
+    prop_oneof![
+        6 => 0.01f32..3.0,
+        1 => Just(f32::NAN),
+        2 => Just(0.005f32),
+        1 => Just(20.0f32),
     ]
 }
 
@@ -99,8 +122,9 @@ fn params() -> impl Strategy<Value = Params> {
         (0usize..4, any::<bool>(), any::<bool>(), 0.05f64..1.0, 0.0f64..1.0, 0.1f64..3.0),
         (0.05f64..5.0, 0.05f64..5.0, 0.05f64..5.0, 0.05f64..5.0),
         (any::<bool>(), any::<bool>(), prop::bool::weighted(0.7), 1.0f64..20.0),
+        (1.0f64..2.0, prop::bool::weighted(0.85)),
     )
-        .prop_map(|((s, holo, stamped, lin, rev, ang), (la, ld, aa, ad), (obst, fence, slow_watch, rate))| {
+        .prop_map(|((s, holo, stamped, lin, rev, ang), (la, ld, aa, ad), (obst, fence, slow_watch, rate), (head, required))| {
             let mut p = Params {
                 strategy: [StrategyKind::CastSurge, StrategyKind::Zigzag, StrategyKind::Spiral, StrategyKind::Reactive][s],
                 base: if holo { BaseKind::Holonomic } else { BaseKind::DiffDrive },
@@ -115,6 +139,11 @@ fn params() -> impl Strategy<Value = Params> {
             p.guard.max_linear_decel = ld;
             p.guard.max_angular_accel = aa;
             p.guard.max_angular_decel = ad;
+            // The robot's declared limits, with some headroom over the caps.
+            let l = &mut p.limits;
+            (l.max_linear, l.max_reverse, l.max_angular) = (lin * head, rev * lin * head, ang * head);
+            (l.max_linear_accel, l.max_linear_decel, l.max_angular_accel, l.max_angular_decel) = (la * head, ld * head, aa * head, ad * head);
+            p.e_stop.required = required;
             p.obstacle.enabled = obst;
             if fence {
                 p.geofence.enabled = true;
@@ -160,6 +189,7 @@ fn message(a: &Action, stamp: Nanos) -> Option<(usize, Msg)> {
         Action::Bearing(b, c, cue) => (0, OdorBearing { header: header(stamp, "base_link"), bearing: b, lag: 0.0, confidence: c, cue }.into()),
         Action::EStop(v) => (5, Bool { data: v }.into()),
         Action::Reset => (6, Empty::default().into()),
+        Action::Caps(..) => return None,
         Action::Scan(d, ok) => {
             // Unstamped (always accepted when well formed), uniform ranges.
             let m = LaserScan {
@@ -177,12 +207,15 @@ fn message(a: &Action, stamp: Nanos) -> Option<(usize, Msg)> {
     })
 }
 
-/// The independent model of the latch and of the obstacle state.
-#[derive(Debug, Default)]
+/// The independent model of the latch, the e-stop, the caps in force and the scan.
+#[derive(Debug)]
 struct Model {
     latched: bool,
     cleared: bool,
+    heard: bool,
     near: bool,
+    blind: bool,
+    caps: (f64, f64),
     prev: Option<(Nanos, Cmd)>,
 }
 
@@ -200,7 +233,7 @@ fn run(p: &Params, steps: &[Step]) -> Result<(Vec<Vec<u8>>, bool), TestCaseError
     let mut a = Arbiter::new(p.clone()).map_err(|e| TestCaseError::fail(e.to_string()))?;
     let g = &p.guard;
     let period = 1.0 / p.rate;
-    let mut m = Model::default();
+    let mut m = Model { latched: false, cleared: false, heard: false, near: false, blind: false, caps: (g.max_linear, g.max_angular), prev: None };
     let mut now: Nanos = 1_000_000_000;
     let mut last_stamp: Nanos = now;
     let mut out = Outbox::new();
@@ -216,10 +249,31 @@ fn run(p: &Params, steps: &[Step]) -> Result<(Vec<Vec<u8>>, bool), TestCaseError
         };
         last_stamp = stamp;
         let mut pressed = false;
+        let stepped_back = m.prev.is_some_and(|(t, _)| now < t);
+        if let Action::Caps(lin, ang) = st.action {
+            // Accepted exactly when within the start-up ceilings and still >= max_reverse.
+            let want = lin <= p.limits.max_linear && ang <= p.limits.max_angular && g.max_reverse <= lin;
+            let yaml = format!("guard:\n  max_linear: {lin:?}\n  max_angular: {ang:?}\n");
+            let v: serde_yaml::Value = serde_yaml::from_str(&yaml).map_err(|e| TestCaseError::fail(e.to_string()))?;
+            let got = a.set_params_yaml(&v);
+            prop_assert_eq!(got.is_ok(), want, "run-time caps {} m/s, {} rad/s under ceilings {:?}: {:?}", lin, ang, p.limits, got);
+            if want {
+                m.caps = (lin, ang);
+            } else if let Err(e) = got {
+                prop_assert!(e.to_string().contains("guard.max_"), "the refusal names the key: {}", e);
+            }
+            continue;
+        }
         match message(&st.action, stamp) {
             None => a.on_timer(now, 0, &mut out),
             Some((i, msg)) => {
                 match st.action {
+                    Action::EStop(_) if !m.heard => {
+                        m.heard = true;
+                        if let Action::EStop(true) = st.action {
+                            (m.latched, m.cleared, pressed) = (true, false, true);
+                        }
+                    }
                     Action::EStop(true) => {
                         m.latched = true;
                         m.cleared = false;
@@ -230,7 +284,13 @@ fn run(p: &Params, steps: &[Step]) -> Result<(Vec<Vec<u8>>, bool), TestCaseError
                         m.latched = false;
                         m.cleared = false;
                     }
-                    Action::Scan(d, true) => m.near = f64::from(d) <= p.obstacle.stop_distance,
+                    Action::Scan(d, true) => {
+                        // REP 117: NaN and readings above range_max (10 m) are invalid; below
+                        // range_min (0.01 m) is an obstacle too close to measure.
+                        let valid = !d.is_nan() && d <= 10.0;
+                        m.blind = !valid;
+                        m.near = valid && f64::from(d) <= p.obstacle.stop_distance;
+                    }
                     _ => {}
                 }
                 a.on_message(now, i, &msg, &mut out);
@@ -238,6 +298,7 @@ fn run(p: &Params, steps: &[Step]) -> Result<(Vec<Vec<u8>>, bool), TestCaseError
         }
         prop_assert_eq!(a.e_stop_latched(), m.latched, "latch state after {:?}", st.action);
         let mut zero_seen = false;
+        let halted_tick = matches!(st.action, Action::Tick) && a.mode() == Mode::Halted;
         for (idx, msg) in out.drain() {
             let mut bytes = Vec::new();
             msg.encode_into(&mut bytes).map_err(|e| TestCaseError::fail(e.to_string()))?;
@@ -247,8 +308,12 @@ fn run(p: &Params, steps: &[Step]) -> Result<(Vec<Vec<u8>>, bool), TestCaseError
                     let c = cmd_of(&msg).ok_or_else(|| TestCaseError::fail("cmd_vel is not a twist"))?;
                     prop_assert_eq!(matches!(msg, Msg::TwistStamped(_)), p.cmd_vel_stamped);
                     prop_assert!(c.is_finite(), "non-finite command {:?}", c);
-                    prop_assert!(c.vx >= -g.max_reverse - 1e-12 && c.vx.hypot(c.vy) <= g.max_linear * (1.0 + 1e-9) + 1e-12, "caps {:?}", c);
-                    prop_assert!(c.wz.abs() <= g.max_angular + 1e-12, "yaw cap {:?}", c);
+                    let (max_linear, max_angular) = m.caps;
+                    prop_assert!(c.vx >= -g.max_reverse - 1e-12 && c.vx.hypot(c.vy) <= max_linear * (1.0 + 1e-9) + 1e-12, "caps {:?} {:?}", c, m.caps);
+                    prop_assert!(c.wz.abs() <= max_angular + 1e-12, "yaw cap {:?}", c);
+                    if p.e_stop.required && !m.heard {
+                        prop_assert_eq!(c, Cmd::ZERO, "e_stop never heard: no motion");
+                    }
                     if p.base == BaseKind::DiffDrive {
                         prop_assert_eq!(c.vy, 0.0);
                     }
@@ -256,12 +321,35 @@ fn run(p: &Params, steps: &[Step]) -> Result<(Vec<Vec<u8>>, bool), TestCaseError
                         prop_assert_eq!(c, Cmd::ZERO, "latched: exactly zero");
                     } else {
                         let (t0, c0) = m.prev.unwrap_or((now, Cmd::ZERO));
-                        let dt = effective_dt(m.prev.map(|_| t0), now, period);
-                        let lin_ok = |v0: f64, v: f64| feasible(v0, v, g.max_linear_accel, g.max_linear_decel, dt);
-                        let hard_stop = m.near && c.vx <= 0.0 && c.vy == 0.0;
-                        prop_assert!(lin_ok(c0.vx, c.vx) || hard_stop, "vx {} -> {} in {} s", c0.vx, c.vx, dt);
-                        prop_assert!(lin_ok(c0.vy, c.vy) || hard_stop, "vy {} -> {} in {} s", c0.vy, c.vy, dt);
-                        prop_assert!(feasible(c0.wz, c.wz, g.max_angular_accel, g.max_angular_decel, dt), "wz {} -> {} in {} s", c0.wz, c.wz, dt);
+                        // Reference steps from the contract: a step back counts one period;
+                        // braking always gets at least one period.
+                        let dt = if m.prev.is_some() && now < t0 { period } else { effective_dt(m.prev.map(|_| t0), now, period) };
+                        let ok = |v0: f64, v: f64, accel: f64, decel: f64| {
+                            let braking = v0 * v >= 0.0 && v.abs() <= v0.abs();
+                            feasible(v0, v, accel, decel, if braking { dt.max(period) } else { dt })
+                        };
+                        let lin_ok = |v0: f64, v: f64| ok(v0, v, g.max_linear_accel, g.max_linear_decel);
+                        let hard_stop = m.near && c.vx.hypot(c.vy) == 0.0;
+                        let over_caps = c0.vx.hypot(c0.vy) > max_linear || c0.wz.abs() > max_angular || c0.vx < -g.max_reverse;
+                        prop_assert!(lin_ok(c0.vx, c.vx) || hard_stop || over_caps, "vx {} -> {} in {} s", c0.vx, c.vx, dt);
+                        prop_assert!(lin_ok(c0.vy, c.vy) || hard_stop || over_caps, "vy {} -> {} in {} s", c0.vy, c.vy, dt);
+                        prop_assert!(ok(c0.wz, c.wz, g.max_angular_accel, g.max_angular_decel) || over_caps, "wz {} -> {} in {} s", c0.wz, c.wz, dt);
+                        if halted_tick && m.prev.is_some() {
+                            // HALTED: the target is zero, and braking is always allowed.
+                            let brakes = |v0: f64, v: f64| v0 == 0.0 && v == 0.0 || v.abs() < v0.abs() && v0 * v >= 0.0;
+                            prop_assert!(brakes(c0.vx, c.vx) && brakes(c0.vy, c.vy) && brakes(c0.wz, c.wz), "HALTED ({}), yet {:?} -> {:?} in {} s", a.reason(), c0, c, dt);
+                        }
+                        if stepped_back && c0 != Cmd::ZERO && m.prev.is_some() {
+                            prop_assert!(c != c0, "the clock stepped back: the previous command {:?} repeated", c0);
+                        }
+                        if m.blind {
+                            prop_assert!(c.vx.hypot(c.vy) <= c0.vx.hypot(c0.vy) + 1e-12, "blinded scan: planar speed grew {:?} -> {:?}", c0, c);
+                        }
+                        if m.near && c.vx.hypot(c.vy) > 0.0 {
+                            // The scan spans +-1.5 rad and the sector is +-0.5 rad wide.
+                            let dir = c.vy.atan2(c.vx).abs();
+                            prop_assert!(dir > 2.0 - 1e-9, "an obstacle within the stop distance, yet {:?} heads into it", c);
+                        }
                     }
                     moved |= c != Cmd::ZERO;
                     zero_seen |= c == Cmd::ZERO;
@@ -293,9 +381,12 @@ fn run(p: &Params, steps: &[Step]) -> Result<(Vec<Vec<u8>>, bool), TestCaseError
 fn random_sequences_keep_every_guarantee() {
     let mut runner = TestRunner::new(Config { cases: 256, failure_persistence: None, ..Config::default() });
     let moving = Cell::new(0u32);
-    let strategy = (params(), prop::collection::vec((dt(), stamp(), action()).prop_map(|(dt, stamp, action)| Step { dt, stamp, action }), 1..300));
+    let strategy = (params(), prop::bool::weighted(0.8), prop::collection::vec((dt(), stamp(), action()).prop_map(|(dt, stamp, action)| Step { dt, stamp, action }), 1..300));
     runner
-        .run(&strategy, |(p, steps)| {
+        .run(&strategy, |(p, heard_first, mut steps)| {
+            if heard_first {
+                steps.insert(0, Step { dt: 0, stamp: Stamp::Now, action: Action::EStop(false) });
+            }
             let (a, moved) = run(&p, &steps)?;
             let (b, _) = run(&p, &steps)?;
             prop_assert!(a == b, "two runs of the same inputs differ");

@@ -281,10 +281,10 @@ fn duplicated_and_reordered_stamps_are_dropped() {
 fn e_stop_heartbeat_halts_when_silent() {
     let mut p = Params::default();
     p.watchdog.e_stop = 0.5;
-    let mut sim = Sim::new(p, Pose2::default(), WIND_TO_MINUS_X, odor_everywhere());
+    let mut sim = Sim::without_e_stop(p, Pose2::default(), WIND_TO_MINUS_X, odor_everywhere());
     sim.run(s(1.0));
     assert_eq!(sim.modes(), vec![Mode::Halted], "no heartbeat yet");
-    assert!(sim.last_state().reason.contains("e_stop never received"), "{}", sim.last_state().reason);
+    assert!(sim.last_state().reason.contains("e_stop never heard"), "{}", sim.last_state().reason);
     for k in 0..20 {
         sim.inject("/e_stop", Bool { data: false }.into());
         sim.run(s(1.0) + (k + 1) * s(0.1));
@@ -307,6 +307,7 @@ fn a_backward_clock_jump_resets_inputs_but_keeps_the_latch() {
         a.on_message(t, 1, &features_msg(t, (0.5, 0.2, f64::NAN, f64::NAN)), out);
         a.on_message(t, 0, &bearing_msg(t, None), out);
     };
+    a.on_message(t0, 5, &Bool { data: false }.into(), &mut out);
     feed(&mut a, &mut out, t0);
     a.on_timer(t0, 0, &mut out);
     assert_eq!(a.mode(), Mode::Surging);

@@ -186,11 +186,15 @@ fn declare_at_the_source_publishes_the_estimate_and_stops() {
     assert!(after.iter().skip(5).all(|(_, c)| c.vx == 0.0 && c.wz == 0.0), "zero once stopped");
     let moved = sim.pose.position.distance(sim.pose_at(t_decl + s(1.0)).position);
     assert!(moved < 1e-9, "stays put after declaring");
-    // DECLARED is sticky; an e_stop_reset while not latched restarts the search.
+    // DECLARED is sticky: an e_stop_reset only concerns the e-stop latch and changes nothing;
+    // search_restart restarts the search.
     sim.inject("/e_stop_reset", sillage_core::msg::Empty::default().into());
+    sim.run(s(30.5));
+    assert_eq!(sim.modes(), vec![Mode::Surging, Mode::Declared], "e_stop_reset does not restart a search");
+    sim.inject("/search_restart", sillage_core::msg::Empty::default().into());
     sim.run(s(31.0));
     assert_eq!(sim.modes(), vec![Mode::Surging, Mode::Declared, Mode::Surging]);
-    assert!(sim.last_state().reason.starts_with("search restarted by e_stop_reset"), "{}", sim.last_state().reason);
+    assert!(sim.last_state().reason.starts_with("search restarted by search_restart"), "{}", sim.last_state().reason);
 }
 
 #[test]

@@ -198,6 +198,7 @@ impl From<sillage_core::Qos> for QosProfile {
             Qos::SensorData => (5, Reliability::BestEffort, Durability::Volatile),
             Qos::Reliable => (10, Reliability::Reliable, Durability::Volatile),
             Qos::Latched => (1, Reliability::Reliable, Durability::TransientLocal),
+            Qos::Safety => (10, Reliability::BestEffort, Durability::Volatile),
         };
         QosProfile { history: History::KeepLast, depth, reliability, durability }
     }

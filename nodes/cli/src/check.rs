@@ -41,6 +41,9 @@ pub struct Args {
     /// Fail on warnings too.
     #[arg(long)]
     pub strict: bool,
+    /// A launch argument for the launch files checked, as on `ros2 launch` (repeatable).
+    #[arg(long = "arg", value_name = "NAME:=VALUE", value_parser = launch_file::parse_arg)]
+    pub launch_args: Vec<(String, String)>,
 }
 
 fn collect(path: &Path, out: &mut Vec<PathBuf>) -> anyhow::Result<()> {
@@ -174,6 +177,11 @@ fn check_scenario(path: &Path) -> Vec<Problem> {
 
 /// Checks one file; returns its kind and problems.
 pub fn check_path(path: &Path, kind: Option<Kind>) -> (Option<Kind>, Vec<Problem>) {
+    check_path_with(path, kind, &[])
+}
+
+/// As [`check_path`], with launch arguments for a launch file.
+pub fn check_path_with(path: &Path, kind: Option<Kind>, launch_args: &[(String, String)]) -> (Option<Kind>, Vec<Problem>) {
     let file = path.display().to_string();
     let kind = match kind.map_or_else(|| guess(path), Ok) {
         Ok(k) => k,
@@ -181,7 +189,7 @@ pub fn check_path(path: &Path, kind: Option<Kind>) -> (Option<Kind>, Vec<Problem
     };
     let problems = match kind {
         Kind::Params => params_file::check_file(path),
-        Kind::Launch => launch_file::check_file(path),
+        Kind::Launch => launch_file::check_file_with(path, launch_args),
         Kind::Scenario => check_scenario(path),
         Kind::Sweep => match crate::tune::check_sweep(path) {
             Ok(()) => Vec::new(),
@@ -206,7 +214,7 @@ pub fn run(args: Args) -> anyhow::Result<()> {
     }
     let (mut errors, mut warnings) = (0usize, 0usize);
     for path in &files {
-        let (kind, problems) = check_path(path, args.kind);
+        let (kind, problems) = check_path_with(path, args.kind, &args.launch_args);
         for p in &problems {
             println!("{p}");
         }

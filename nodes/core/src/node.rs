@@ -17,8 +17,19 @@ pub enum Qos {
     SensorData,
     /// Ordinary data and commands: reliable, keep last 10, volatile.
     Reliable,
-    /// Latched state (e-stop, search state): reliable, keep last 1, transient local.
+    /// Latched state (search state): reliable, keep last 1, transient local.
     Latched,
+    /// Safety inputs (the e-stop): best effort, keep last 10, volatile, a subscription that
+    /// matches every publisher (reliable or best effort, volatile or transient local); never
+    /// dropped by an executor's flood limits and served first.
+    Safety,
+}
+
+impl Qos {
+    /// Whether an executor must serve this class first and never drop it under a flood.
+    pub fn is_priority(self) -> bool {
+        matches!(self, Qos::Latched | Qos::Safety)
+    }
 }
 
 /// One input or output of a node: a topic name (relative unless it starts with `/`), the

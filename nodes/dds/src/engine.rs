@@ -287,7 +287,7 @@ impl Engine {
         self.start(system);
         let Some(ep) = self.inputs.get(input) else { return };
         self.intake.stats.samples += 1;
-        let (topic, owner, droppable) = (ep.topic.clone(), ep.owner, ep.class != Some(Qos::Latched));
+        let (topic, owner, droppable) = (ep.topic.clone(), ep.owner, !ep.class.is_some_and(Qos::is_priority));
         if self.intake.is_bad_writer(writer) {
             self.intake.stats.wrong_type += 1;
             let ty = ep.dds_type.clone();

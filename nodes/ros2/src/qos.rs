@@ -5,8 +5,20 @@
 //!   ROS 2 `sensor_data` preset: a late sample is worth less than the next one.
 //! - [`Qos::Reliable`] (commands, events, estimates): reliable, keep last 10, volatile, the ROS 2
 //!   default profile.
-//! - [`Qos::Latched`] (e_stop, search_state): reliable, keep last 1, transient local, so a node
-//!   that starts late still gets the current e-stop and search state.
+//! - [`Qos::Latched`] (search_state): reliable, keep last 1, transient local, so a node that
+//!   starts late still gets the current search state.
+//! - [`Qos::Safety`] (e_stop): best effort, keep last 10, volatile. Under the DDS
+//!   request/offered rules this subscription matches every publisher a user may have
+//!   (reliable or best effort, volatile or transient local), so an e-stop can never be
+//!   silently unmatched. The price: a sample a transient-local publisher sent *before* the
+//!   match is not replayed to a volatile subscription, and best effort may lose a sample on a
+//!   lossy link. Both fail closed in the arbiter: it stays HALTED until it has heard one
+//!   `e_stop` (`e_stop.required`), and `watchdog.e_stop` (on in the robot example) halts it
+//!   when the e-stop stops repeating. So the e-stop publisher must repeat its state
+//!   periodically (a heartbeat), which is common practice for safety topics anyway.
+//!   Subscribing twice (reliable + transient local and best effort + volatile) was not chosen:
+//!   the two streams deliver the same samples in an interleaving of their own, and a late
+//!   `true` from one after a `false` from the other would re-latch a released e-stop.
 
 use sillage_core::Qos;
 
@@ -47,6 +59,7 @@ impl QosSpec {
             Qos::SensorData => QosSpec { reliability: Reliability::BestEffort, durability: Durability::Volatile, depth: 5 },
             Qos::Reliable => QosSpec { reliability: Reliability::Reliable, durability: Durability::Volatile, depth: 10 },
             Qos::Latched => QosSpec { reliability: Reliability::Reliable, durability: Durability::TransientLocal, depth: 1 },
+            Qos::Safety => QosSpec { reliability: Reliability::BestEffort, durability: Durability::Volatile, depth: 10 },
         }
     }
 
@@ -92,6 +105,30 @@ mod tests {
         assert_eq!(QosSpec::of(Qos::SensorData).describe(), "best effort, keep last 5, volatile");
         assert_eq!(QosSpec::of(Qos::Reliable).describe(), "reliable, keep last 10, volatile");
         assert_eq!(QosSpec::of(Qos::Latched).describe(), "reliable, keep last 1, transient local");
+        assert_eq!(QosSpec::of(Qos::Safety).describe(), "best effort, keep last 10, volatile");
+    }
+
+    #[test]
+    fn the_safety_subscription_matches_every_publisher() {
+        // DDS 1.4 section 2.2.3 (request/offered): a subscription requesting best effort and
+        // volatile is served by every reliability and durability offer.
+        let sub = QosSpec::of(Qos::Safety);
+        for reliability in [Reliability::Reliable, Reliability::BestEffort] {
+            for durability in [Durability::Volatile, Durability::TransientLocal] {
+                let offer = QosSpec { reliability, durability, depth: 1 };
+                assert_eq!(offer.mismatch(&sub), None, "{}", offer.describe());
+                // The old latched subscription missed some of them.
+                let missed = offer.mismatch(&QosSpec::of(Qos::Latched)).is_some();
+                assert_eq!(missed, reliability == Reliability::BestEffort || durability == Durability::Volatile);
+            }
+        }
+        // Every e_stop input of the stack is a safety subscription.
+        for kind in NodeKind::ALL {
+            let Ok(core) = kind.build_from_str(None, "(defaults)", kind.name()) else { continue };
+            for port in core.inputs().iter().filter(|p| p.topic == "e_stop") {
+                assert_eq!(port.qos, Qos::Safety, "{}", kind.name());
+            }
+        }
     }
 
     #[test]

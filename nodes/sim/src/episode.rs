@@ -16,7 +16,7 @@
 //! Outcomes: a correct declaration ends the episode. It is a *success* (the headline figure)
 //! only when it is the episode's first declaration. A false declaration is counted; then,
 //! unless `stop_on_false_declaration`, the runner plays the operator and sends
-//! `e_stop_reset`, which makes the arbiter forget the declaration and search again; a correct
+//! `search_restart`, which makes the arbiter forget the declaration and search again; a correct
 //! declaration after such a reset is *correct after resets* (a secondary figure: the operator
 //! knew the truth). The episode also ends at the time limit, or as *stalled* when the arbiter
 //! stays HALTED for `halt_timeout` (a terminal failure: inputs stopped or the e-stop latched).
@@ -236,7 +236,7 @@ struct Topics {
     search_state: String,
     source_estimate: String,
     chem: String,
-    e_stop_reset: String,
+    search_restart: String,
     odor_bearing: String,
     plume_features: String,
 }
@@ -344,7 +344,7 @@ impl Sim {
             search_state: r("search_state"),
             source_estimate: r("source_estimate"),
             chem: world_topics[crate::world_node::OUT_CHEM].clone(),
-            e_stop_reset: r("e_stop_reset"),
+            search_restart: r("search_restart"),
             odor_bearing: r("odor_bearing"),
             plume_features: r("plume_features"),
         };
@@ -444,8 +444,8 @@ impl Sim {
                 if self.options.stop_on_false_declaration {
                     break Outcome::FalseDeclaration;
                 }
-                let reset = Msg::Empty(Empty::default());
-                inject(&mut ex, t, &topics.e_stop_reset, "(operator)", reset, &mut tap, spec.index)?;
+                let restart = Msg::Empty(Empty::default());
+                inject(&mut ex, t, &topics.search_restart, "(operator)", restart, &mut tap, spec.index)?;
             }
             if let Some((SearchState::HALTED, since)) = tap.log.mode() {
                 if t - since >= halt_timeout {

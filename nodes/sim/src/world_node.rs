@@ -7,7 +7,8 @@
 //!   ([`WorldNode::initial_outputs`] or the first tick), which publishes the initial `odom`
 //!   (robot at rest at the start pose) and `/clock`;
 //! - each tick advances the physics to `now` and publishes, in this order: `/clock`, `odom`
-//!   (when due at `odom_rate`), every `wind` reading, every `scan`, every `chem` sample taken
+//!   (when due at `odom_rate`), `e_stop` = false (when due, every [`E_STOP_PERIOD`]: the
+//!   simulated robot's e-stop, never pressed, as a heartbeat), every `wind` reading, every `scan`, every `chem` sample taken
 //!   since the last tick, stamped with their sample times (equal to `now` when the sensor
 //!   rates divide `rate`). `chem` goes last: it is the only output whose consumers publish in
 //!   turn, so every node sees this tick's pose and wind before the odor it causes;
@@ -40,7 +41,7 @@ pub const NODE_NAME: &str = "sim_world";
 
 /// Every topic the world node may declare (`scan` only with a laser in the scenario), for
 /// checks that have no scenario at hand (launch-file remaps).
-pub const TOPICS: &[&str] = &["cmd_vel", "chem", "wind", "odom", "/clock", "scan"];
+pub const TOPICS: &[&str] = &["cmd_vel", "chem", "wind", "odom", "/clock", "e_stop", "scan"];
 
 /// Input index of `cmd_vel`.
 pub const IN_CMD_VEL: usize = 0;
@@ -52,8 +53,13 @@ pub const OUT_WIND: usize = 1;
 pub const OUT_ODOM: usize = 2;
 /// Output index of `/clock`.
 pub const OUT_CLOCK: usize = 3;
+/// Output index of `e_stop` (std_msgs/Bool, always false).
+pub const OUT_E_STOP: usize = 4;
 /// Output index of `scan` (present only with a laser).
-pub const OUT_SCAN: usize = 4;
+pub const OUT_SCAN: usize = 5;
+
+/// Period of the simulated e-stop heartbeat [ns] (0.5 s).
+pub const E_STOP_PERIOD: u64 = 500_000_000;
 
 /// How long a refused command keeps the command diagnostics at WARN [s].
 const RECENT_PROBLEM: f64 = 5.0;
@@ -79,6 +85,7 @@ pub struct WorldNode {
     epoch: Option<Nanos>,
     odom_period: u64,
     next_odom: u64,
+    next_e_stop: u64,
     last_cmd: Option<Nanos>,
     timed_out: bool,
     stats: CommandStats,
@@ -94,6 +101,7 @@ impl WorldNode {
         Ok(WorldNode {
             odom_period: u64::try_from(nanos(1.0 / params.odom_rate)).unwrap_or(u64::MAX).max(1),
             next_odom: 0,
+            next_e_stop: 0,
             has_laser: scenario.laser.is_some(),
             scan_time,
             world,
@@ -143,6 +151,12 @@ impl WorldNode {
             out.publish(OUT_CLOCK, convert::clock(now));
         }
         self.publish_odom(now, out);
+        self.publish_e_stop(out);
+    }
+
+    fn publish_e_stop(&mut self, out: &mut Outbox) {
+        out.publish(OUT_E_STOP, Bool { data: false });
+        self.next_e_stop = self.world.time_ns().saturating_add(E_STOP_PERIOD);
     }
 
     fn publish_odom(&mut self, now: Nanos, out: &mut Outbox) {
@@ -188,6 +202,9 @@ impl WorldNode {
         if self.world.time_ns() >= self.next_odom {
             self.publish_odom(now, out);
         }
+        if self.world.time_ns() >= self.next_e_stop {
+            self.publish_e_stop(out);
+        }
         for w in self.world.drain_wind() {
             out.publish(OUT_WIND, convert::wind(epoch, &f.base, &w));
         }
@@ -223,6 +240,7 @@ impl NodeCore for WorldNode {
             Port::of::<Vector3Stamped>("wind", Qos::SensorData),
             Port::of::<Odometry>("odom", Qos::SensorData),
             Port::of::<Clock>("/clock", Qos::Reliable),
+            Port::of::<Bool>("e_stop", Qos::Reliable),
         ];
         if self.has_laser {
             v.push(Port::of::<LaserScan>("scan", Qos::SensorData));
@@ -379,12 +397,31 @@ mod tests {
     }
 
     #[test]
+    fn the_e_stop_is_published_false_every_half_second() {
+        let mut node = WorldNode::new(&demo(), WorldParams::default()).expect("node");
+        let mut out = Outbox::new();
+        let mut e_stops = Vec::new();
+        for k in 0..=300 {
+            node.on_timer(k * 10_000_000, 0, &mut out);
+            for (i, m) in out.drain() {
+                if i == OUT_E_STOP {
+                    assert_eq!(m, Msg::Bool(Bool { data: false }));
+                    e_stops.push(k * 10);
+                }
+            }
+        }
+        // At the epoch, then every 500 ms of world time over 3 s [ms].
+        assert_eq!(e_stops, [0, 500, 1000, 1500, 2000, 2500, 3000]);
+        assert_eq!(node.outputs()[OUT_E_STOP].topic, "e_stop");
+    }
+
+    #[test]
     fn commands_time_out_and_bad_ones_are_dropped() {
         let s = demo();
         let mut node = WorldNode::new(&s, WorldParams::default()).expect("node");
         let mut out = Outbox::new();
         node.initial_outputs(0, &mut out);
-        assert_eq!(out.drain().count(), 2, "initial clock and odom");
+        assert_eq!(out.drain().count(), 3, "initial clock, odom and e_stop");
         node.on_message(0, IN_CMD_VEL, &forward(0, 0.3), &mut out);
         let mut odd = TwistStamped { header: Header::new(0, "map"), twist: Twist::default() };
         odd.twist.linear.x = 1.0;

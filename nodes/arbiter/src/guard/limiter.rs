@@ -2,9 +2,12 @@
 //!
 //! Contract, per command at time `now` [ns], with the previous command `p` at `t_prev`:
 //! - the allowed time step is `dt = clamp(now - t_prev, 0, period)` [s], from the stamps the
-//!   executor hands in (never wall time): a duplicated or backward stamp allows no change at
-//!   all, a forward clock jump no more than one control period (the very first command counts
-//!   one period from rest);
+//!   executor hands in (never wall time): a forward clock jump allows no more than one control
+//!   period (the very first command counts one period from rest); a step *back* in time (a
+//!   restarted simulation or bag loop) counts as one nominal period, so the limiter never
+//!   repeats the previous command because the clock went back; a duplicated stamp allows no
+//!   speeding up, but braking always gets at least one nominal period ([`Steps`]): the limiter
+//!   never stands between a command and slowing down;
 //! - each axis (linear.x, linear.y, angular.z) moves from `p` toward the capped target `q`:
 //!   speeding up (same sign, growing) by at most `accel * dt`; slowing down by at most
 //!   `decel * dt`; through zero by braking at `decel` first and speeding up at `accel` with
@@ -23,25 +26,47 @@ use sillage_core::Nanos;
 /// Relative slack used by [`feasible`] for float rounding.
 pub const SLACK: f64 = 1e-9;
 
+/// The time steps [s] a command may use: `up` for speeding up, `down` (>= `up`) for braking.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Steps {
+    /// Time for speeding up [s].
+    pub up: f64,
+    /// Time for braking [s].
+    pub down: f64,
+}
+
+impl Steps {
+    /// The same step for both.
+    pub fn both(dt: f64) -> Steps {
+        Steps { up: dt, down: dt }
+    }
+}
+
 /// One axis: from `p` toward `q` within `dt` [s] under `accel` and `decel`.
 pub fn step_axis(p: f64, q: f64, accel: f64, decel: f64, dt: f64) -> f64 {
-    if p == q || dt <= 0.0 {
-        return if dt <= 0.0 { p } else { q };
+    step_axis_in(p, q, accel, decel, Steps::both(dt))
+}
+
+/// One axis: from `p` toward `q`, braking for at most `dt.down` [s] at `decel` and speeding
+/// up within `dt.up` [s] at `accel`.
+pub fn step_axis_in(p: f64, q: f64, accel: f64, decel: f64, dt: Steps) -> f64 {
+    if p == q {
+        return q;
     }
     if p * q >= 0.0 && q.abs() >= p.abs() {
-        let up = (q.abs() - p.abs()).min(accel * dt);
+        let up = (q.abs() - p.abs()).min(accel * dt.up.max(0.0));
         return if q != 0.0 { q.signum() * (p.abs() + up) } else { p };
     }
     if p * q >= 0.0 {
-        let down = (p.abs() - q.abs()).min(decel * dt);
+        let down = (p.abs() - q.abs()).min(decel * dt.down.max(0.0));
         return p.signum() * (p.abs() - down);
     }
     // Crossing zero.
     let t_stop = p.abs() / decel;
-    if t_stop >= dt {
-        return p.signum() * (p.abs() - decel * dt);
+    if t_stop >= dt.down {
+        return p.signum() * (p.abs() - decel * dt.down.max(0.0));
     }
-    q.signum() * q.abs().min(accel * (dt - t_stop))
+    q.signum() * q.abs().min(accel * (dt.up - t_stop).max(0.0))
 }
 
 /// Whether going from `p` to `v` within `dt` [s] respects `accel` and `decel` (with
@@ -59,12 +84,20 @@ pub fn feasible(p: f64, v: f64, accel: f64, decel: f64, dt: f64) -> bool {
     }
 }
 
-/// The effective time step [s] between a command at `t_prev` and one at `now`.
+/// The effective time step [s] between a command at `t_prev` and one at `now` (a step back
+/// in time counts as one nominal `period`).
 pub fn effective_dt(t_prev: Option<Nanos>, now: Nanos, period: f64) -> f64 {
     match t_prev {
         None => period,
+        Some(t) if now < t => period,
         Some(t) => secs(now.saturating_sub(t)).clamp(0.0, period),
     }
+}
+
+/// The steps a command at `now` may use after one at `t_prev`: braking gets at least `period`.
+pub fn steps(t_prev: Option<Nanos>, now: Nanos, period: f64) -> Steps {
+    let up = effective_dt(t_prev, now, period);
+    Steps { up, down: up.max(period) }
 }
 
 /// Clamps `c` into the caps.
@@ -106,12 +139,12 @@ impl Limiter {
     /// The command sent at `now` for `target`; returns it and whether limiting changed it.
     pub fn limit(&mut self, now: Nanos, target: Cmd, g: &GuardParams, period: f64) -> (Cmd, bool) {
         let q = cap(target, g);
-        let dt = effective_dt(self.t_prev, now, period);
+        let dt = steps(self.t_prev, now, period);
         let p = self.prev;
         let mut v = Cmd {
-            vx: step_axis(p.vx, q.vx, g.max_linear_accel, g.max_linear_decel, dt),
-            vy: step_axis(p.vy, q.vy, g.max_linear_accel, g.max_linear_decel, dt),
-            wz: step_axis(p.wz, q.wz, g.max_angular_accel, g.max_angular_decel, dt),
+            vx: step_axis_in(p.vx, q.vx, g.max_linear_accel, g.max_linear_decel, dt),
+            vy: step_axis_in(p.vy, q.vy, g.max_linear_accel, g.max_linear_decel, dt),
+            wz: step_axis_in(p.wz, q.wz, g.max_angular_accel, g.max_angular_decel, dt),
         };
         if v.vx.hypot(v.vy) > g.max_linear {
             shrink_growing_axes(&mut v, &p, g.max_linear);
@@ -157,8 +190,23 @@ mod tests {
         assert_eq!(step_axis(0.3, 0.0, 0.5, 1.0, 0.0), 0.3, "no time, no change");
         assert!(feasible(0.05, -0.025, 0.5, 1.0, 0.1));
         assert!(!feasible(0.05, -0.03, 0.5, 1.0, 0.1));
-        assert_eq!(effective_dt(Some(10), 5, 0.1), 0.0);
+        assert_eq!(effective_dt(Some(10), 5, 0.1), 0.1, "a step back counts one nominal period");
+        assert_eq!(effective_dt(Some(10), 10, 0.1), 0.0);
         assert_eq!(effective_dt(Some(0), 10_000_000_000, 0.1), 0.1);
+        // A duplicated stamp: no speeding up, braking for one nominal period.
+        assert_eq!(steps(Some(10), 10, 0.1), Steps { up: 0.0, down: 0.1 });
+        assert!((step_axis_in(0.3, 0.0, 0.5, 1.0, steps(Some(10), 10, 0.1)) - 0.2).abs() < 1e-12);
+        assert_eq!(step_axis_in(0.1, 0.3, 0.5, 1.0, steps(Some(10), 10, 0.1)), 0.1);
+    }
+
+    #[test]
+    fn a_clock_step_back_never_repeats_the_previous_command() {
+        let g = GuardParams::default();
+        let mut l = Limiter::default();
+        l.force(5_000_000_000, Cmd { vx: 0.3, vy: 0.0, wz: 0.5 });
+        let (v, _) = l.limit(1_000_000_000, Cmd::ZERO, &g, 0.1);
+        // One nominal period of braking: 0.3 - 1.0 * 0.1 and 0.5 - 4.0 * 0.1.
+        assert!((v.vx - 0.2).abs() < 1e-12 && (v.wz - 0.1).abs() < 1e-12, "{v:?}");
     }
 
     proptest! {
@@ -174,9 +222,14 @@ mod tests {
             l.force(0, p);
             let (v, _) = l.limit(dt_ms * 1_000_000, Cmd { vx: qx, vy: qy, wz: qw }, &g, 0.1);
             let dt = (dt_ms as f64 * 1e-3).min(0.1);
-            prop_assert!(feasible(p.vx, v.vx, accel, decel, dt), "vx {} -> {} dt {}", p.vx, v.vx, dt);
-            prop_assert!(feasible(p.vy, v.vy, accel, decel, dt), "vy {} -> {} dt {}", p.vy, v.vy, dt);
-            prop_assert!(feasible(p.wz, v.wz, g.max_angular_accel, g.max_angular_decel, dt));
+            // Braking gets one nominal period even on a duplicated stamp: check speeding up
+            // against `dt` and braking against the period.
+            let ok = |p: f64, v: f64, a: f64, d: f64| {
+                if p * v >= 0.0 && v.abs() <= p.abs() { feasible(p, v, a, d, 0.1) } else { feasible(p, v, a, d, dt) }
+            };
+            prop_assert!(ok(p.vx, v.vx, accel, decel), "vx {} -> {} dt {}", p.vx, v.vx, dt);
+            prop_assert!(ok(p.vy, v.vy, accel, decel), "vy {} -> {} dt {}", p.vy, v.vy, dt);
+            prop_assert!(ok(p.wz, v.wz, g.max_angular_accel, g.max_angular_decel));
             prop_assert!(v.vx.hypot(v.vy) <= g.max_linear * (1.0 + SLACK));
             prop_assert!(v.vx >= -g.max_reverse && v.wz.abs() <= g.max_angular);
         }

@@ -120,7 +120,15 @@ pub fn cmd_of(msg: &Msg) -> Option<Cmd> {
 impl Sim {
     /// A loop with the arbiter built from `p`, the robot at `pose`, the air moving at `wind`
     /// [m/s, odom], and `plume`.
+    /// The e-stop publishes `false` once at the start (`e_stop.required`).
     pub fn new(p: Params, pose: Pose2, wind: Vec2, plume: Plume) -> Sim {
+        let mut sim = Sim::without_e_stop(p, pose, wind, plume);
+        sim.inject("/e_stop", Msg::Bool(sillage_core::msg::Bool { data: false }));
+        sim
+    }
+
+    /// As [`Sim::new`], with an e-stop topic that never publishes.
+    pub fn without_e_stop(p: Params, pose: Pose2, wind: Vec2, plume: Plume) -> Sim {
         let holonomic = p.base == sillage_arbiter::params::BaseKind::Holonomic;
         let mut ex = Executor::new();
         ex.add(Box::new(Arbiter::new(p).expect("valid parameters"))).expect("wires");

@@ -132,9 +132,10 @@ pub fn run(engine: &mut Engine, domain_id: u16, namespace: &str, stop: &AtomicBo
         engine.clock_mode(),
         transport::endpoint_id(&ros2_client::dds::rustdds::RTPSEntity::guid(t.participant()))
     );
-    // Latched inputs (the e-stop) first in every pass: a stop must not wait behind a flood.
+    // Priority inputs (the e-stop, latched state) first in every pass: a stop must not wait
+    // behind a flood.
     let mut order: Vec<usize> = (0..n).collect();
-    order.sort_by_key(|&i| engine.inputs()[i].class != Some(sillage_core::Qos::Latched));
+    order.sort_by_key(|&i| !engine.inputs()[i].class.is_some_and(sillage_core::Qos::is_priority));
     let start = Instant::now();
     let mut events = Events::with_capacity(64);
     let mut pending = false;

@@ -9,10 +9,15 @@
 //!   `name` (it would rename all four nodes); every `<remap from>` names a topic of the node
 //!   (warning otherwise).
 //! - Every file referenced (`<param from>`, `<include file>`) exists, where its path can be
-//!   resolved offline: literal paths, `$(find-pkg-share sillage)` (the folder above the launch
-//!   file's folder, in the source tree and in `share/sillage/` alike) and `$(var x)` with a
-//!   default. An `<include>` passes only arguments the included file declares, and all it
-//!   requires.
+//!   resolved offline: literal paths, `$(find-pkg-share PKG)` and `$(var x)` with a default
+//!   or a value given on the command line ([`check_file_with`]). `find-pkg-share sillage` is
+//!   the folder above the launch file's folder (the source tree's root, or `share/sillage/` of
+//!   an install tree); any package, `sillage` included when that folder lacks the file, is
+//!   also looked up as `share/PKG` under each prefix of `AMENT_PREFIX_PATH` (an install tree).
+//!   An `<include>` passes only arguments the included file declares, and all it requires.
+//! - Every parameter file referenced (`<param from>`, here or in an included launch file, with
+//!   the arguments the include passes) is checked as [`super::params_file`] does, and its
+//!   problems are reported under its own name; each file once.
 
 use super::Problem;
 use crate::spec::NodeSpec;
@@ -83,6 +88,22 @@ fn substitutions(s: &str) -> Vec<Substitution> {
 /// Values of arguments known offline: name -> default (None: required, no default).
 type Args = BTreeMap<String, Option<String>>;
 
+/// The share folders of `pkg` in the install trees of `AMENT_PREFIX_PATH`.
+fn installed_shares(pkg: &str) -> Vec<PathBuf> {
+    let prefixes = std::env::var_os("AMENT_PREFIX_PATH").unwrap_or_default();
+    std::env::split_paths(&prefixes).map(|p| p.join("share").join(pkg)).filter(|p| p.is_dir()).collect()
+}
+
+/// `$(find-pkg-share pkg)` offline: for sillage the folder above the launch file's folder
+/// (`share`), else the first install tree holding the package.
+fn pkg_share(pkg: &str, share: &Path) -> Option<PathBuf> {
+    if pkg == "sillage" {
+        Some(share.to_path_buf())
+    } else {
+        installed_shares(pkg).into_iter().next()
+    }
+}
+
 /// Resolves `s` offline, or `None` if some part is only known at launch time.
 fn resolve(s: &str, args: &Args, share: &Path, depth: usize) -> Option<String> {
     if depth > 8 {
@@ -96,7 +117,7 @@ fn resolve(s: &str, args: &Args, share: &Path, depth: usize) -> Option<String> {
         let end = after.find(')')?;
         let sub = substitutions(&after[..=end]).into_iter().next()?;
         let value = match (sub.kind.as_str(), sub.args.as_slice()) {
-            ("find-pkg-share", [pkg]) if pkg == "sillage" => share.display().to_string(),
+            ("find-pkg-share", [pkg]) => pkg_share(pkg, share)?.display().to_string(),
             ("var", [name]) => resolve(args.get(name)?.as_deref()?, args, share, depth + 1)?,
             _ => return None,
         };
@@ -168,6 +189,12 @@ struct Ctx<'a> {
     share: PathBuf,
     dir: PathBuf,
     out: Vec<Problem>,
+    /// Problems of the parameter files referenced (here and in included launch files).
+    followed: Vec<Problem>,
+    /// Files already followed (parameter files and included launch files).
+    seen: BTreeSet<PathBuf>,
+    /// Include depth (bounded: a file including itself).
+    depth: usize,
 }
 
 impl Ctx<'_> {
@@ -181,10 +208,28 @@ impl Ctx<'_> {
         self.out.push(Problem::warning(&self.file, l, msg));
     }
 
-    /// The path a file attribute resolves to, if it can be known offline.
+    /// The path a file attribute resolves to, if it can be known offline. A
+    /// `$(find-pkg-share sillage)` path missing from the tree of the launch file is looked up
+    /// in the install trees too.
     fn path_of(&self, value: &str) -> Option<PathBuf> {
         let p = PathBuf::from(resolve(value, &self.args, &self.share, 0)?);
-        Some(if p.is_relative() { self.dir.join(p) } else { p })
+        let p = if p.is_relative() { self.dir.join(p) } else { p };
+        if !p.exists() && value.contains("$(find-pkg-share sillage)") {
+            for share in installed_shares("sillage") {
+                if let Some(q) = resolve(value, &self.args, &share, 0).map(PathBuf::from).filter(|q| q.exists()) {
+                    return Some(q);
+                }
+            }
+        }
+        Some(p)
+    }
+
+    /// Checks the parameter file at `path` once.
+    fn follow_params(&mut self, path: PathBuf) {
+        let key = std::fs::canonicalize(&path).unwrap_or_else(|_| path.clone());
+        if self.seen.insert(key) {
+            self.followed.extend(super::params_file::check_file(&path));
+        }
     }
 
     fn check_file_ref(&mut self, n: Node, attr: &str, what: &str) -> Option<PathBuf> {
@@ -248,6 +293,7 @@ impl Ctx<'_> {
             return;
         };
         let theirs = declared_args(&inner);
+        self.follow_include(n, &path, &inner, &theirs);
         let passed: Vec<(Node, String)> = n
             .children()
             .filter(|c| c.tag_name().name() == "arg")
@@ -264,6 +310,35 @@ impl Ctx<'_> {
                 self.err(n, format!("{} requires argument '{name}', which this include does not pass", path.display()));
             }
         }
+    }
+
+    /// Follows the parameter files of an included launch file, with the arguments passed.
+    fn follow_include(&mut self, n: Node, path: &Path, inner: &Document, theirs: &Args) {
+        let key = std::fs::canonicalize(path).unwrap_or_else(|_| path.to_path_buf());
+        if self.depth >= 8 || !self.seen.insert(key) {
+            return;
+        }
+        let mut args = theirs.clone();
+        for c in n.children().filter(|c| c.tag_name().name() == "arg") {
+            if let (Some(name), Some(value)) = (c.attribute("name"), c.attribute("value")) {
+                args.insert(name.to_string(), resolve(value, &self.args, &self.share, 0));
+            }
+        }
+        let (dir, share) = folders(path);
+        let mut sub = Ctx {
+            file: path.display().to_string(),
+            doc: inner,
+            args,
+            share,
+            dir,
+            out: Vec::new(),
+            followed: Vec::new(),
+            seen: std::mem::take(&mut self.seen),
+            depth: self.depth + 1,
+        };
+        sub.walk(inner.root_element(), &mut BTreeSet::new());
+        self.seen = sub.seen;
+        self.followed.extend(sub.followed);
     }
 
     fn walk(&mut self, n: Node, used: &mut BTreeSet<String>) {
@@ -292,7 +367,9 @@ impl Ctx<'_> {
             "node" => self.check_node(n),
             "include" => self.check_include(n),
             "param" => {
-                let _ = self.check_file_ref(n, "from", "parameter file");
+                if let Some(path) = self.check_file_ref(n, "from", "parameter file") {
+                    self.follow_params(path);
+                }
             }
             "remap" if n.attribute("from").is_none_or(str::is_empty) || n.attribute("to").is_none_or(str::is_empty) => {
                 self.err(n, "<remap> needs non-empty from= and to=");
@@ -306,8 +383,31 @@ impl Ctx<'_> {
     }
 }
 
+/// The launch file's folder and the package share above it, from its absolute path (source
+/// tree and install tree alike).
+fn folders(path: &Path) -> (PathBuf, PathBuf) {
+    let abs = std::fs::canonicalize(path).unwrap_or_else(|_| path.to_path_buf());
+    let dir = abs.parent().map(Path::to_path_buf).unwrap_or_else(|| PathBuf::from("."));
+    let share = dir.parent().map(Path::to_path_buf).unwrap_or_else(|| PathBuf::from(".."));
+    (dir, share)
+}
+
+/// A launch argument given on the command line as `name:=value` (as `ros2 launch` takes it).
+pub fn parse_arg(s: &str) -> Result<(String, String), String> {
+    match s.split_once(":=") {
+        Some((name, value)) if !name.is_empty() && !name.contains(char::is_whitespace) => Ok((name.to_string(), value.to_string())),
+        _ => Err(format!("launch argument '{s}': expected NAME:=VALUE")),
+    }
+}
+
 /// Checks launch XML text; `path` is where the file is (for relative and package paths).
 pub fn check_text(text: &str, path: &Path) -> Vec<Problem> {
+    check_text_with(text, path, &[])
+}
+
+/// Checks launch XML text with launch arguments given as on `ros2 launch` (`(name, value)`;
+/// a name the file does not declare is an error).
+pub fn check_text_with(text: &str, path: &Path, given: &[(String, String)]) -> Vec<Problem> {
     let file = path.display().to_string();
     let doc = match Document::parse(text) {
         Ok(d) => d,
@@ -317,12 +417,18 @@ pub fn check_text(text: &str, path: &Path) -> Vec<Problem> {
     if root.tag_name().name() != "launch" {
         return vec![Problem::error(&file, "1", format!("the root element is <{}>, a launch file's is <launch>", root.tag_name().name()))];
     }
-    // The package share is the folder above the launch file's folder (source tree and
-    // install tree alike); work from the absolute path so relative names resolve too.
-    let abs = std::fs::canonicalize(path).unwrap_or_else(|_| path.to_path_buf());
-    let dir = abs.parent().map(Path::to_path_buf).unwrap_or_else(|| PathBuf::from("."));
-    let share = dir.parent().map(Path::to_path_buf).unwrap_or_else(|| PathBuf::from(".."));
-    let mut ctx = Ctx { file, doc: &doc, args: declared_args(&doc), share, dir, out: Vec::new() };
+    let (dir, share) = folders(path);
+    let mut args = declared_args(&doc);
+    let mut bad_args = Vec::new();
+    for (name, value) in given {
+        if args.contains_key(name) {
+            args.insert(name.clone(), Some(value.clone()));
+        } else {
+            let list: Vec<&str> = args.keys().map(String::as_str).collect();
+            bad_args.push(Problem::error(&file, "", format!("launch argument '{name}' given on the command line, but the file declares no such argument (it has {})", list.join(", "))));
+        }
+    }
+    let mut ctx = Ctx { file, doc: &doc, args, share, dir, out: bad_args, followed: Vec::new(), seen: BTreeSet::new(), depth: 0 };
     let mut used = BTreeSet::new();
     ctx.walk(root, &mut used);
     for n in doc.descendants().filter(|n| n.tag_name().name() == "arg" && n.parent_element() == Some(root)) {
@@ -332,13 +438,19 @@ pub fn check_text(text: &str, path: &Path) -> Vec<Problem> {
             }
         }
     }
+    ctx.out.extend(ctx.followed);
     ctx.out
 }
 
 /// Checks a launch file on disk.
 pub fn check_file(path: &Path) -> Vec<Problem> {
+    check_file_with(path, &[])
+}
+
+/// Checks a launch file on disk with launch arguments (see [`check_text_with`]).
+pub fn check_file_with(path: &Path, given: &[(String, String)]) -> Vec<Problem> {
     match std::fs::read_to_string(path) {
-        Ok(text) => check_text(&text, path),
+        Ok(text) => check_text_with(&text, path, given),
         Err(e) => vec![Problem::error(&path.display().to_string(), "", format!("cannot read: {e}"))],
     }
 }
@@ -355,6 +467,64 @@ mod tests {
         std::fs::write(dir.join("config/p.yaml"), "/**:\n  ros__parameters: {}\n").expect("write");
         std::fs::write(launch.join("inner.launch.xml"), "<launch><arg name=\"ns\"/><arg name=\"opt\" default=\"x\"/></launch>").expect("write");
         check_text(xml, &launch.join("t.launch.xml")).iter().map(ToString::to_string).collect()
+    }
+
+    #[test]
+    fn referenced_parameter_files_are_checked_with_default_and_given_arguments() {
+        let dir = std::env::temp_dir().join(format!("sillage-launch-follow-{}", std::process::id()));
+        std::fs::create_dir_all(dir.join("config")).expect("dirs");
+        std::fs::create_dir_all(dir.join("launch")).expect("dirs");
+        let bad = "/**:\n  ros__parameters:\n    guard:\n      max_linear: -0.5\n";
+        std::fs::write(dir.join("config/bad.yaml"), bad).expect("write");
+        std::fs::write(dir.join("config/good.yaml"), "/**:\n  ros__parameters: {}\n").expect("write");
+        std::fs::write(dir.join("config/fast.yaml"), "arbiter:\n  ros__parameters:\n    guard:\n      max_linear: 5.0\n").expect("write");
+        let inner = r#"<launch><arg name="p" default="$(find-pkg-share sillage)/config/good.yaml"/>
+  <node pkg="sillage" exec="sillage_arbiter"><param from="$(var p)"/></node></launch>"#;
+        std::fs::write(dir.join("launch/inner.launch.xml"), inner).expect("write");
+        let outer = r#"<launch>
+  <arg name="params" default="$(find-pkg-share sillage)/config/bad.yaml"/>
+  <arg name="inner_params" default="$(find-pkg-share sillage)/config/good.yaml"/>
+  <node pkg="sillage" exec="sillage_arbiter"><param from="$(var params)"/></node>
+  <include file="$(find-pkg-share sillage)/launch/inner.launch.xml"><arg name="p" value="$(var inner_params)"/></include>
+</launch>"#;
+        let path = dir.join("launch/outer.launch.xml");
+        std::fs::write(&path, outer).expect("write");
+        let text = |v: Vec<Problem>| v.iter().map(ToString::to_string).collect::<Vec<_>>();
+        // The default argument: the negative cap in bad.yaml is reported under its own name.
+        let p = text(check_file(&path));
+        assert!(p.iter().any(|m| m.contains("bad.yaml") && m.contains("guard.max_linear") && m.contains("error")), "{p:#?}");
+        // Arguments from the command line, also through the include.
+        let given = [("params".to_string(), dir.join("config/good.yaml").display().to_string())];
+        assert_eq!(text(check_file_with(&path, &given)), Vec::<String>::new());
+        let given = [("inner_params".to_string(), dir.join("config/fast.yaml").display().to_string()), ("params".to_string(), dir.join("config/good.yaml").display().to_string())];
+        let p = text(check_file_with(&path, &given));
+        assert!(p.iter().any(|m| m.contains("fast.yaml") && m.contains("limits.max_linear")), "{p:#?}");
+        let p = text(check_file_with(&path, &[("nope".to_string(), "1".to_string())]));
+        assert!(p.iter().any(|m| m.contains("launch argument 'nope'")), "{p:#?}");
+        assert_eq!(parse_arg("params:=/a/b.yaml"), Ok(("params".to_string(), "/a/b.yaml".to_string())));
+        assert!(parse_arg("params=/a").is_err());
+        let _ = std::fs::remove_dir_all(&dir);
+    }
+
+    #[test]
+    fn find_pkg_share_resolves_in_an_install_tree() {
+        // colcon installs launch/ and config/ to <prefix>/share/sillage/: the launch file
+        // there finds its parameter files beside it, and their errors are reported.
+        let prefix = std::env::temp_dir().join(format!("sillage-install-{}", std::process::id()));
+        let share = prefix.join("share/sillage");
+        std::fs::create_dir_all(share.join("config")).expect("dirs");
+        std::fs::create_dir_all(share.join("launch")).expect("dirs");
+        std::fs::write(share.join("config/x.yaml"), "/**:\n  ros__parameters:\n    guard:\n      max_angular: -1.0\n").expect("write");
+        let launch = r#"<launch><arg name="p" default="$(find-pkg-share sillage)/config/x.yaml"/>
+  <node pkg="sillage" exec="sillage_arbiter"><param from="$(var p)"/></node></launch>"#;
+        std::fs::write(share.join("launch/r.launch.xml"), launch).expect("write");
+        let p: Vec<String> = check_file(&share.join("launch/r.launch.xml")).iter().map(ToString::to_string).collect();
+        assert!(p.iter().any(|m| m.contains("share/sillage/config/x.yaml") && m.contains("guard.max_angular")), "{p:#?}");
+        // Another package's share is only known through AMENT_PREFIX_PATH: unresolved here
+        // unless that variable names an install tree holding it.
+        let v = "$(find-pkg-share some_robot_cfg)/config/x.yaml";
+        assert_eq!(resolve(v, &Args::new(), &share, 0).is_some(), !installed_shares("some_robot_cfg").is_empty());
+        let _ = std::fs::remove_dir_all(&prefix);
     }
 
     #[test]

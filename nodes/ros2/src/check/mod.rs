@@ -1,7 +1,9 @@
 //! Offline validation of the files a robot runs with (what `sillage check` prints):
-//! [`params_file`] for ROS 2 parameter files, [`launch_file`] for launch XML. Each check
+//! [`params_file`] for ROS 2 parameter files, [`launch_file`] for launch XML (and the
+//! parameter files it references), [`caps`] for speed caps beyond common practice. Each check
 //! returns every [`Problem`] it finds, each naming the file and the key or line.
 
+pub mod caps;
 pub mod launch_file;
 pub mod params_file;
 

@@ -198,10 +198,14 @@ pub fn check_text(text: &str, file: &str) -> Vec<Problem> {
             merged.insert(Value::from(key.as_str()), Value::Mapping(inner));
         }
         let text = serde_yaml::to_string(&Value::Mapping(merged)).unwrap_or_default();
-        if let Err(e) = kind.build_from_str(Some(&text), file, &fqn) {
-            let mut p = from_build_error(file, &fqn, &e);
-            p.message = format!("{} (with every section that reaches {fqn} merged)", p.message);
-            out.push(p);
+        match kind.build_from_str(Some(&text), file, &fqn) {
+            Err(e) => {
+                let mut p = from_build_error(file, &fqn, &e);
+                p.message = format!("{} (with every section that reaches {fqn} merged)", p.message);
+                out.push(p);
+            }
+            Ok(core) if kind == NodeKind::Arbiter => out.extend(super::caps::warnings(file, &fqn, &core.params_yaml())),
+            Ok(_) => {}
         }
     }
     out

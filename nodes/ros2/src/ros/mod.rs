@@ -19,6 +19,7 @@
 //! this module without ROS.
 
 mod params;
+mod restart;
 
 use crate::diagnostics;
 use crate::names::{node_fqn, resolved_ports, ArgsError, RosArgs};
@@ -171,6 +172,9 @@ fn host(ctx: &Context, spec: &NodeSpec, args: &RosArgs) -> Result<(Node, Served)
             .subscribe_raw(&port.topic, port.type_name, profile(port.qos))
             .map_err(ros(format!("{fqn}: subscribing to '{}' ({})", port.topic, port.type_name)))?;
         events.push(sub.map(move |bytes| Event::Input(i, bytes)).boxed());
+        if let Some(srv) = restart::service(&mut node, i, port).map_err(ros(format!("{fqn}: the '{}' service", restart::TOPIC)))? {
+            events.push(srv);
+        }
     }
     let mut pubs = Vec::new();
     for port in &outputs {
