@@ -134,7 +134,8 @@ fn without_the_bearing_cue_a_silent_odor_bearing_still_halts() {
             last = Some(st.clone());
         }
     };
-    // Everything but odor_bearing, at 20 Hz, for 3 s.
+    // Everything but odor_bearing, at 20 Hz, for 3 s (the e-stop heard once at the start).
+    ex.inject(0, "/e_stop", sillage_core::Msg::Bool(sillage_core::msg::Bool { data: false })).expect("input");
     let mut t = 0;
     while t < s(3.0) {
         for (topic, m) in [
