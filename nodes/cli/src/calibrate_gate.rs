@@ -49,13 +49,13 @@ pub fn distance_coverage(distances: &[f64]) -> (f64, f64, usize) {
 /// Why the fit fails the gate (empty: it passes).
 pub fn judge(fit: &Fit, distances: &[f64], gate: &Gate) -> Vec<String> {
     let mut out = Vec::new();
-    if !(fit.r_squared >= gate.min_r2) {
+    if fit.r_squared.is_nan() || fit.r_squared < gate.min_r2 {
         out.push(format!("R^2 {:.3} is below {:.3} (--min-r2): the bout rate explains little of the distance", fit.r_squared, gate.min_r2));
     }
-    if !(fit.rate_coef < 0.0) {
+    if fit.rate_coef.is_nan() || fit.rate_coef >= 0.0 {
         out.push(format!("the rate coefficient is {:+.4} ln m/Hz: distance should fall as the bout rate rises (< 0)", fit.rate_coef));
     }
-    if !(fit.loo_mean_relative <= gate.max_loo_relative) {
+    if fit.loo_mean_relative.is_nan() || fit.loo_mean_relative > gate.max_loo_relative {
         out.push(format!(
             "leave-one-out mean relative error {:.0} % is above {:.0} % (--max-loo-error)",
             100.0 * fit.loo_mean_relative,
@@ -65,7 +65,7 @@ pub fn judge(fit: &Fit, distances: &[f64], gate: &Gate) -> Vec<String> {
     let (lo, hi, distinct) = distance_coverage(distances);
     if distinct < MIN_DISTINCT_DISTANCES {
         out.push(format!("the truth holds {distinct} distinct distance(s); at least {MIN_DISTINCT_DISTANCES} are needed"));
-    } else if !(hi / lo >= gate.min_distance_ratio) {
+    } else if (hi / lo).is_nan() || hi / lo < gate.min_distance_ratio {
         out.push(format!(
             "the distances cover {lo:.2} to {hi:.2} m (5th to 95th percentile), a factor {:.2}, less than {:.1} (--min-distance-ratio)",
             hi / lo,
