@@ -173,7 +173,7 @@ mod tests {
         let e = c.ros.placement("event_encoder", &c.namespace);
         assert_eq!(remap_topic("odom", &e, "event_encoder"), "/robot1/odom", "node-specific rules stay with their node");
         let d = cfg(&["--namespace", "robot2/"], Some("12")).expect("valid");
-        assert_eq!((d.domain_id, d.nodes.len(), d.namespace.as_str()), (12, 4, "/robot2"));
+        assert_eq!((d.domain_id, d.nodes.len(), d.namespace.as_str()), (12, 5, "/robot2"));
         assert_eq!(cfg(&[], None).expect("valid").domain_id, 0);
     }
 

@@ -143,7 +143,7 @@ fn estop(on: bool) -> Vec<u8> {
 fn the_stack_is_wired_with_dds_names_and_the_declared_types() {
     let cfg = RunConfig::from_argv(["sillage_dds", "--namespace", "/r1", "--use-sim-time"], None).expect("valid");
     let e = Engine::new(setup::build(&cfg).expect("builds"), &EngineOptions::default()).expect("wires");
-    assert_eq!(e.node_names(), vec!["/r1/event_encoder", "/r1/bearing_decoder", "/r1/plume_estimator", "/r1/arbiter"]);
+    assert_eq!(e.node_names(), vec!["/r1/event_encoder", "/r1/bearing_decoder", "/r1/plume_estimator", "/r1/arbiter", "/r1/source_mapper"]);
     let chem = &e.inputs()[input(&e, "/r1/chem")];
     assert_eq!(chem.dds_topic, "rt/r1/chem");
     assert_eq!(chem.dds_type, "sillage_msgs::msg::dds_::ChemSample_");

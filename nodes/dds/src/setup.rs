@@ -189,7 +189,7 @@ mod tests {
         let p = write("sim.yaml", "/**:\n  ros__parameters:\n    use_sim_time: true\n");
         let s = build(&cfg(&["--params-file", &p, "--namespace", "/r2"])).expect("builds");
         assert_eq!(s.clock, ClockMode::Simulated);
-        assert_eq!(names(&s), vec!["/r2/event_encoder", "/r2/bearing_decoder", "/r2/plume_estimator", "/r2/arbiter"]);
+        assert_eq!(names(&s), vec!["/r2/event_encoder", "/r2/bearing_decoder", "/r2/plume_estimator", "/r2/arbiter", "/r2/source_mapper"]);
         assert_eq!(build(&cfg(&[])).expect("defaults").clock, ClockMode::System);
         assert_eq!(build(&cfg(&["--use-sim-time", "--node", "arbiter"])).expect("flag").clock, ClockMode::Simulated);
     }
