@@ -107,8 +107,8 @@ impl MoxParams {
         }
     }
 
-    /// One unit drawn around these nominal values: R0 exp(s_r n1), beta (1 + s_b n2) (kept
-    /// >= 0.05), both taus exp(s_t n3) (one draw: a unit is slow or fast as a whole), and
+    /// One unit drawn around these nominal values: R0 exp(s_r n1), beta (1 + s_b n2) (at
+    /// least 0.05), both taus exp(s_t n3) (one draw: a unit is slow or fast as a whole), and
     /// its drift rate [1/s]; the spreads of the result are zero.
     pub fn draw_unit<R: Rng + ?Sized>(&self, rng: &mut R) -> (Self, f64) {
         let mut n = || rng.sample::<f64, _>(StandardNormal);
