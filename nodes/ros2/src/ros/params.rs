@@ -2,7 +2,7 @@
 //! `make_derived_parameter_handler` calls [`ParamBridge`] for `ros2 param set/get` and at
 //! registration, and every change goes through [`NodeRuntime::set_param`], so an invalid
 //! value is refused (the caller gets `successful: false` with the reason), logged, and the old
-//! value kept.
+//! value kept. Caps (`guard.max_*`) are also refused above their start-up values.
 
 use crate::param_value::ParamValue;
 use crate::runtime::NodeRuntime;
@@ -47,10 +47,54 @@ pub(crate) fn to_r2r(v: &ParamValue) -> ParameterValue {
     }
 }
 
+/// Speed and acceleration caps (`guard.max_*`): at run time they may be lowered, never raised
+/// above the value the node started with (a robot's caps are set by its parameter file; a
+/// stray `ros2 param set` must not lift them). Real ROS 2 showed the gap: the core's own
+/// validation accepted `guard.max_linear := 3.0` over the services.
+fn is_cap(key: &str) -> bool {
+    key.starts_with("guard.max_")
+}
+
+/// The number a cap's value holds (integers count: the node turns them into doubles).
+fn as_number(v: &ParameterValue) -> Option<f64> {
+    match v {
+        ParameterValue::Double(x) => Some(*x),
+        ParameterValue::Integer(i) => Some(*i as f64),
+        _ => None,
+    }
+}
+
 /// The parameters of one hosted node as r2r sees them.
 pub(crate) struct ParamBridge {
     pub(crate) rt: Arc<Mutex<NodeRuntime>>,
     pub(crate) logger: String,
+    /// Start-up values of the caps (key -> ceiling).
+    ceilings: Vec<(String, f64)>,
+}
+
+impl ParamBridge {
+    /// A bridge for `rt`; its caps' current values become their ceilings.
+    pub(crate) fn new(rt: Arc<Mutex<NodeRuntime>>, logger: String) -> ParamBridge {
+        let ceilings = lock(&rt)
+            .flat_params()
+            .into_iter()
+            .filter(|(k, _)| is_cap(k))
+            .filter_map(|(k, v)| as_number(&to_r2r(&v)).map(|x| (k, x)))
+            .collect();
+        ParamBridge { rt, logger, ceilings }
+    }
+
+    /// Refuses a value above a cap's ceiling.
+    fn check_ceiling(&self, name: &str, value: &ParameterValue) -> Result<(), String> {
+        let Some((_, ceiling)) = self.ceilings.iter().find(|(k, _)| k == name) else { return Ok(()) };
+        match as_number(value) {
+            Some(x) if x > *ceiling => Err(format!(
+                "{name} is a cap: at run time it can be lowered but not raised above its start-up value {ceiling} \
+                 (got {x}); restart the node with a new parameter file to raise it"
+            )),
+            _ => Ok(()),
+        }
+    }
 }
 
 impl RosParams for ParamBridge {
@@ -69,6 +113,10 @@ impl RosParams for ParamBridge {
 
     fn set_parameter(&mut self, name: &str, value: &ParameterValue) -> r2r::Result<()> {
         let v = from_r2r(value);
+        if let Err(msg) = self.check_ceiling(name, value) {
+            r2r::log_warn!(&self.logger, "refused parameter change {name} := {}: {msg}; the old value stays", v.display());
+            return Err(r2r::Error::ParameterValueConv { name: name.to_string(), msg });
+        }
         let result = lock(&self.rt).set_param(name, v.clone());
         match result {
             Ok(now) => {
@@ -83,6 +131,7 @@ impl RosParams for ParamBridge {
     }
 
     fn check_parameter(&self, name: &str, value: &ParameterValue) -> r2r::Result<()> {
+        self.check_ceiling(name, value).map_err(|msg| r2r::Error::ParameterValueConv { name: name.to_string(), msg })?;
         lock(&self.rt)
             .check_param(name, from_r2r(value))
             .map_err(|e| r2r::Error::ParameterValueConv { name: name.to_string(), msg: e.to_string() })
