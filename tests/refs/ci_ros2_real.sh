@@ -12,8 +12,10 @@
 #   SILLAGE_ROS2_SCENARIOS="replay live" bash tests/refs/ci_ros2_real.sh   # a subset
 #
 # Install locations (idempotent, reused when unchanged): /opt/ros2-min (the prefix the tree was
-# built for), the colcon venv $SILLAGE_ROS2_VENV (default /opt/ros2-venv); build outputs under
-# <cargo target dir>/ros2-real (colcon build, install and log folders, and the cargo build).
+# built for), the colcon venv $SILLAGE_ROS2_VENV (default /opt/ros2-venv); colcon's build,
+# install and log folders under <cargo target dir>/ros2-real. Cargo builds into the usual
+# target folder: the `ros2` feature gets artifacts of its own there (other features, other
+# hashes), and shares the dependencies `cargo test --workspace` built before it.
 set -eo pipefail
 
 here="$(cd "$(dirname "${BASH_SOURCE[0]}")" && pwd)"
@@ -34,7 +36,7 @@ prefix=/opt/ros2-min
 venv="${SILLAGE_ROS2_VENV:-/opt/ros2-venv}"
 target="${CARGO_TARGET_DIR:-$root/target}"
 out="$target/ros2-real"
-scenarios="${SILLAGE_ROS2_SCENARIOS:-replay live sim}"
+scenarios="${SILLAGE_ROS2_SCENARIOS:-replay live interop sim}"
 mkdir -p "$out"
 
 # --- 1. system packages (the bundled tree's README: build tools, libclang for r2r's bindings,
@@ -77,6 +79,9 @@ done_step "venv"
 step "sillage replay of the demo bag (the in-process reference)"
 cargo build --locked -p sillage-cli --bin sillage
 cli="$target/debug/sillage"
+# The interop scenario's other two DDS participants: sillage_dds and a Cyclone DDS Python peer.
+cargo build --locked -p sillage-dds --features dds --bin sillage_dds
+python="$(bash "$here/venv.sh")"
 work="$(mktemp -d)"
 ns="sillage-ros2-$$"
 cleanup() {
@@ -116,9 +121,9 @@ done_step "colcon"
 step "cargo build -p sillage-ros2 --features ros2 --bins (and the probe)"
 # The message packages r2r generates bindings for (colcon/CMakeLists.txt's list, and std_srvs).
 export IDL_PACKAGE_FILTER='sillage_msgs;std_msgs;builtin_interfaces;geometry_msgs;sensor_msgs;nav_msgs;diagnostic_msgs;rosgraph_msgs;rcl_interfaces;std_srvs'
-CARGO_TARGET_DIR="$out/cargo" cargo build --locked -p sillage-ros2 --features ros2 --bins
-CARGO_TARGET_DIR="$out/cargo" cargo build --locked -p sillage-ros2 --features ros2,probe --example ros2_probe
-bin_dir="$out/cargo/debug"
+cargo build --locked -p sillage-ros2 --features ros2 --bins
+cargo build --locked -p sillage-ros2 --features ros2,probe --example ros2_probe
+bin_dir="$target/debug"
 probe="$bin_dir/examples/ros2_probe"
 for b in $(sed -n 's/^name = "\(sillage_[a-z_]*\)"$/\1/p' nodes/ros2/Cargo.toml); do
     [[ -x "$bin_dir/$b" ]] || fail "node binary $b did not link"
@@ -144,6 +149,7 @@ for s in $scenarios; do
     case "$s" in
         replay) extra=(--reference "$work/reference/bag") ;;
         sim) extra=(--scenario "$root/config/scenarios/demo.yaml") ;;
+        interop) extra=(--dds-bin "$target/debug/sillage_dds" --python "$python") ;;
     esac
     mkdir -p "$work/$s"
     set +e

@@ -20,7 +20,6 @@ pub struct LaunchedNode {
     /// The `exec` attribute (binary name in the package's lib folder).
     pub exec: String,
     /// The `name` attribute, if any (`-r __node:=name`).
-    #[allow(dead_code)] // kept for messages
     pub name: Option<String>,
     /// The namespace the node gets (`-r __ns:=...`), absolute, "" for the root.
     pub namespace: String,

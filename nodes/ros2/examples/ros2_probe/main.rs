@@ -13,7 +13,10 @@
 //!   parameter services (list, describe, get, set: refused changes keep the old value, a
 //!   valid one takes effect on cmd_vel), malformed samples counted and survived;
 //! - `sim`: sim.launch.xml's graph: the world publishes /clock, the stack follows it, the
-//!   episode ends in a declaration.
+//!   episode ends in a declaration;
+//! - `interop`: on one domain, the r2r nodes, the pure-Rust DDS companion (`sillage_dds`) and
+//!   a Cyclone DDS Python peer (tests/refs/ros2_interop_peer.py) see each other's topics with
+//!   their ROS types, follow the peer's /clock, and the companion takes an e-stop from r2r.
 //!
 //! The probe decides on its own where each topic must be (the launch arguments it passes are
 //! fixed here: namespace `robot1`, odometry on `odom_filtered`, the velocity command on
@@ -79,6 +82,8 @@ struct Opts {
     reference: Option<PathBuf>,
     scenario_file: Option<PathBuf>,
     pace: Duration,
+    dds_bin: Option<PathBuf>,
+    python: Option<PathBuf>,
 }
 
 fn opts() -> AnyResult<Opts> {
@@ -102,6 +107,8 @@ fn opts() -> AnyResult<Opts> {
         bag: m.get("bag").map(PathBuf::from).unwrap_or_else(|| root.join("tests/fixtures/demo/demo_bag")),
         reference: m.get("reference").map(PathBuf::from),
         scenario_file: m.get("scenario").map(PathBuf::from),
+        dds_bin: m.get("dds-bin").map(PathBuf::from),
+        python: m.get("python").map(PathBuf::from),
         pace: Duration::from_micros(m.get("pace-us").and_then(|s| s.parse().ok()).unwrap_or(1500)),
         root,
     })
@@ -213,7 +220,7 @@ fn start(nodes: &[launch::LaunchedNode], bin_dir: &Path, work: &Path) -> AnyResu
         let log = work.join(format!("{i}-{}.log", n.exec));
         let file = std::fs::File::create(&log).map_err(|e| format!("{}: {e}", log.display()))?;
         let err = file.try_clone().map_err(|e| format!("{}: {e}", log.display()))?;
-        println!("start {} {}", bin.display(), n.args.join(" "));
+        println!("start {} ({}/{}) {}", bin.display(), n.namespace, n.name.as_deref().unwrap_or("-"), n.args.join(" "));
         let child = Command::new(&bin)
             .args(&n.args)
             .stdin(Stdio::null())
@@ -895,6 +902,124 @@ async fn scenario_sim(o: &Opts, v: &mut Verdict) -> AnyResult<()> {
     Ok(())
 }
 
+/// Waits (bounded) until `topic` has a publisher of type `ty` on the ROS graph.
+async fn wait_publisher(probe: &Probe, topic: &str, ty: &str, within: Duration) -> (bool, Vec<(String, String)>) {
+    let deadline = Instant::now() + within;
+    loop {
+        let found = probe.publishers_of(topic);
+        if found.iter().any(|(_, t)| t == ty) || Instant::now() > deadline {
+            return (found.iter().any(|(_, t)| t == ty), found);
+        }
+        tokio::time::sleep(Duration::from_millis(100)).await;
+    }
+}
+
+async fn scenario_interop(o: &Opts, v: &mut Verdict) -> AnyResult<()> {
+    let dds_bin = o.dds_bin.clone().ok_or("interop needs --dds-bin (sillage_dds)")?;
+    let python = o.python.clone().ok_or("interop needs --python (the venv with cyclonedds)")?;
+    let peer_script = o.root.join("tests/refs/ros2_interop_peer.py");
+    let dds_ns = "/robot2";
+    let probe = Probe::new("sillage_probe")?;
+    let mut g = launch_robot(&probe, o, v).await?;
+    let state2 = probe.record(&format!("{dds_ns}/search_state"), "sillage_msgs/msg/SearchState", profile(Qos::Latched))?;
+    let estop_qos = cores(&launch::expand(&o.root.join("launch/robot.launch.xml"), &robot_args(&o.params), &o.root)?)
+        .iter()
+        .flat_map(|(_, _, c)| c.inputs().to_vec())
+        .find(|p| p.topic == "e_stop")
+        .map(|p| p.qos)
+        .ok_or("no e_stop input in the launched graph")?;
+    let estop2 = probe.publisher(&format!("{dds_ns}/e_stop"), "std_msgs/msg/Bool", profile(estop_qos))?;
+    let log = o.work.join("sillage_dds.log");
+    let file = std::fs::File::create(&log).map_err(|e| format!("{}: {e}", log.display()))?;
+    let err = file.try_clone().map_err(|e| e.to_string())?;
+    let mut dds = Command::new(&dds_bin)
+        .args(["--params-file", &o.params.display().to_string(), "--namespace", dds_ns, "--domain-id", "0"])
+        .env_remove("ROS_DOMAIN_ID")
+        .stdin(Stdio::null())
+        .stdout(file)
+        .stderr(err)
+        .spawn()
+        .map_err(|e| format!("starting {}: {e}", dds_bin.display()))?;
+    let (ok, found) = wait_publisher(&probe, &format!("{dds_ns}/search_state"), "sillage_msgs/msg/SearchState", Duration::from_secs(30)).await;
+    v.check("r2r sees sillage_dds's search_state with its ROS type", ok, format!("publishers {found:?}"));
+    let (ok, found) = wait_publisher(&probe, &format!("{dds_ns}/cmd_vel"), "geometry_msgs/msg/TwistStamped", Duration::from_secs(5)).await;
+    v.check("r2r sees sillage_dds's cmd_vel with its ROS type", ok, format!("publishers {found:?}"));
+    let report = o.work.join("peer.json");
+    let mut peer = Command::new(&python)
+        .arg(&peer_script)
+        .args(["--r2r", NS, "--dds", dds_ns, "--seconds", "12", "--report", &report.display().to_string()])
+        .stdin(Stdio::null())
+        .spawn()
+        .map_err(|e| format!("starting the Cyclone DDS peer: {e}"))?;
+    let (ok, found) = wait_publisher(&probe, &format!("{dds_ns}/chem"), "sillage_msgs/msg/ChemSample", Duration::from_secs(10)).await;
+    v.check("r2r sees the Cyclone DDS peer's chem with its ROS type", ok, format!("publishers {found:?}"));
+    let (ok, found) = wait_publisher(&probe, "/clock", "rosgraph_msgs/msg/Clock", Duration::from_secs(5)).await;
+    v.check("r2r sees the Cyclone DDS peer's /clock with its ROS type", ok, format!("publishers {found:?}"));
+    tokio::time::sleep(Duration::from_secs(5)).await;
+    // r2r -> sillage_dds: an e-stop from the probe halts the companion's arbiter.
+    let estop_at = samples(&state2).len();
+    publish(&estop2, &Msg::Bool(Bool { data: true }))?;
+    let deadline = Instant::now() + Duration::from_secs(30);
+    let status = loop {
+        match peer.try_wait() {
+            Ok(Some(s)) => break Some(s),
+            Ok(None) if Instant::now() < deadline => tokio::time::sleep(Duration::from_millis(100)).await,
+            _ => break None,
+        }
+    };
+    if status.is_none() {
+        let _ = peer.kill();
+    }
+    v.check("the Cyclone DDS peer ran", status.is_some_and(|s| s.success()), format!("{status:?}"));
+    let text = std::fs::read_to_string(&report).map_err(|e| format!("{}: {e}", report.display()))?;
+    let rep: serde_json::Value = serde_json::from_str(&text).map_err(|e| format!("{}: {e}", report.display()))?;
+    let span = |i: usize| rep["clock"][i].as_i64().unwrap_or(0);
+    let (c0, c1) = (span(0), span(1));
+    let within = |t: i64| (c0..=c1 + 1_000_000_000).contains(&t);
+    for ns in [NS, dds_ns] {
+        let states = rep["search_state"][ns].as_array().cloned().unwrap_or_default();
+        let stamps: Vec<i64> = states.iter().filter_map(|x| x["stamp"].as_i64()).collect();
+        let followed = stamps.iter().filter(|t| within(**t)).count();
+        v.check(
+            &format!("the Cyclone DDS peer reads {ns}/search_state, stamped on its /clock"),
+            followed > 0,
+            format!("{} samples, {followed} within the peer's clock [{:.1}, {:.1}] s", stamps.len(), c0 as f64 * 1e-9, c1 as f64 * 1e-9),
+        );
+    }
+    let states2 = decode_all(&state2, "sillage_msgs/msg/SearchState", |m| match m {
+        Msg::SearchState(s) => Some(s),
+        _ => None,
+    });
+    let followed = states2.iter().filter(|s| within(s.header.stamp.to_nanos())).count();
+    v.check("r2r reads sillage_dds's search_state, stamped on the peer's clock", followed > 0, format!("{} samples, {followed} on the peer's clock", states2.len()));
+    let halted: Vec<&str> = states2.iter().skip(estop_at).map(|s| s.reason.as_str()).filter(|r| r.contains("e-stop")).collect();
+    let diag_estop = diag_arrays(&g).iter().flat_map(|a| a.status.iter()).any(|s| s.message.contains("e-stop latched"));
+    v.check(
+        "sillage_dds's arbiter takes the e-stop r2r published",
+        !halted.is_empty() || diag_estop,
+        format!("search_state reasons with 'e-stop': {halted:?}; 'e-stop latched' in /diagnostics: {diag_estop}"),
+    );
+    let arrays = diag_arrays(&g);
+    let got = diag_value(&arrays, &format!("{}/event_encoder: executor", NS.trim_start_matches('/')), "in chem: received");
+    let n = got.as_deref().and_then(|x| x.parse::<u64>().ok()).unwrap_or(0);
+    v.check("the r2r event encoder receives the Cyclone DDS peer's chem", n > 0, format!("in chem: received = {got:?}"));
+    let _ = Command::new("kill").args(["-INT", &dds.id().to_string()]).status();
+    let deadline = Instant::now() + Duration::from_secs(10);
+    let st = loop {
+        match dds.try_wait() {
+            Ok(Some(s)) => break Some(s),
+            Ok(None) if Instant::now() < deadline => std::thread::sleep(Duration::from_millis(50)),
+            _ => break None,
+        }
+    };
+    if st.is_none() {
+        let _ = dds.kill();
+    }
+    v.check("sillage_dds exits 0 on SIGINT", st.is_some_and(|s| s.success()), format!("{st:?} (log {})", log.display()));
+    stop(&mut g.procs, v);
+    Ok(())
+}
+
 fn main() -> std::process::ExitCode {
     let o = match opts() {
         Ok(o) => o,
@@ -916,6 +1041,7 @@ fn main() -> std::process::ExitCode {
             "replay" => scenario_replay(&o, &mut v).await,
             "live" => scenario_live(&o, &mut v).await,
             "sim" => scenario_sim(&o, &mut v).await,
+            "interop" => scenario_interop(&o, &mut v).await,
             other => Err(format!("unknown scenario '{other}' (replay, live, sim)")),
         }
     });
