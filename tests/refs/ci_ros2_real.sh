@@ -90,8 +90,9 @@ cleanup() {
     rm -rf "$work"
 }
 trap cleanup EXIT
-params="$work/params.yaml"
-{ cat config/sillage.yaml; printf '\n/**:\n  ros__parameters:\n    use_sim_time: true\n'; } > "$params"
+# The parameter file robot.launch.xml defaults to; simulated time comes from the launch
+# argument use_sim_time:=true, as on a robot replaying a bag.
+params="$root/config/sillage.yaml"
 "$cli" replay tests/fixtures/demo/demo_bag --params "$params" --out "$work/reference" --no-plots --quiet > "$work/reference.txt"
 done_step "reference"
 

@@ -767,13 +767,11 @@ async fn scenario_live(o: &Opts, v: &mut Verdict) -> AnyResult<()> {
     let d = call(&probe, &describe, &DescribeParameters::Request { names: vec!["guard.max_linear".into(), "rate".into()] }).await?;
     let typed = d.descriptors.iter().all(|x| x.type_ == 3);
     v.check("describe_parameters: types", d.descriptors.len() == 2 && typed, format!("{:?}", d.descriptors.iter().map(|x| (&x.name, x.type_)).collect::<Vec<_>>()));
-    // Not checked (r2r 0.9.7 fills only the name, the type and a static description): say what
-    // came back, so a change shows.
-    println!(
-        "describe_parameters (not checked): descriptions {:?}, floating-point ranges {:?}",
-        d.descriptors.iter().map(|x| &x.description).collect::<Vec<_>>(),
-        d.descriptors.iter().map(|x| x.floating_point_range.len()).collect::<Vec<_>>()
-    );
+    // Descriptions: the end-of-line comments of config/arbiter.yaml, units included.
+    let described = d.descriptors.iter().all(|x| x.description.contains('[') && x.description.contains(']'));
+    v.check("describe_parameters: descriptions with units", described, format!("{:?}", d.descriptors.iter().map(|x| &x.description).collect::<Vec<_>>()));
+    // Not checked: ranges (r2r 0.9.7's service fills none); say what came back.
+    println!("describe_parameters (not checked): floating-point ranges {:?}", d.descriptors.iter().map(|x| x.floating_point_range.len()).collect::<Vec<_>>());
     let before = get_double(&probe, &get, "guard.max_linear").await?;
     v.check("get_parameters guard.max_linear", before > 0.0, format!("{before}"));
     for (what, key, x) in [
@@ -933,7 +931,7 @@ async fn scenario_interop(o: &Opts, v: &mut Verdict) -> AnyResult<()> {
     let file = std::fs::File::create(&log).map_err(|e| format!("{}: {e}", log.display()))?;
     let err = file.try_clone().map_err(|e| e.to_string())?;
     let mut dds = Command::new(&dds_bin)
-        .args(["--params-file", &o.params.display().to_string(), "--namespace", dds_ns, "--domain-id", "0"])
+        .args(["--params-file", &o.params.display().to_string(), "--namespace", dds_ns, "--domain-id", "0", "--use-sim-time"])
         .env_remove("ROS_DOMAIN_ID")
         .stdin(Stdio::null())
         .stdout(file)
