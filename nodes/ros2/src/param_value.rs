@@ -172,14 +172,17 @@ where
     out
 }
 
-/// `v` without empty lists (recursively): what a parameter file can hold, since rcl cannot
-/// give an empty list a type (it loads it as "not set").
+/// `v` without empty lists and without maps left empty (recursively): what a parameter file
+/// can hold. rcl cannot give an empty list a type (it loads it as "not set"), and its YAML
+/// parser refuses an empty map (`channels: {}`: "Cannot have a value before ros__parameters",
+/// seen with Jazzy's rcl_yaml_param_parser).
 pub fn without_empty_lists(v: &Value) -> Value {
     match v {
         Value::Mapping(m) => Value::Mapping(
             m.iter()
                 .filter(|(_, v)| !v.as_sequence().is_some_and(Vec::is_empty))
                 .map(|(k, v)| (k.clone(), without_empty_lists(v)))
+                .filter(|(_, v)| !v.as_mapping().is_some_and(|m| m.is_empty()))
                 .collect(),
         ),
         other => other.clone(),
@@ -256,5 +259,13 @@ mod tests {
                 prop_assert_eq!(ParamValue::from_yaml("k", &v.to_yaml()).expect("round trip"), v);
             }
         }
+    }
+
+    #[test]
+    fn parameter_files_hold_no_empty_collections() {
+        // rcl_yaml_param_parser (Jazzy) refuses `channels: {}` and types no `[]`: both go,
+        // and so does a map that only held them.
+        let v = yaml("a: {b: [], c: {}, d: {e: []}, f: 1.0}\ng: []\n");
+        assert_eq!(without_empty_lists(&v), yaml("a: {f: 1.0}\n"));
     }
 }

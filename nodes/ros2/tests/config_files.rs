@@ -25,8 +25,9 @@ const HEADER: &str = "\
 #   BLESS=1 cargo test -p sillage-ros2 --test config_files
 # and checked by that test: do not edit by hand. Copy it, or config/robot_example.yaml, to
 # make a robot's own file, and validate that with `sillage check FILE`. Parameters whose
-# default is an empty list (e.g. the arbiter's geofence.polygon) are left out: a ROS 2
-# parameter file cannot give an empty list a type.
+# default is an empty list (e.g. the arbiter's geofence.polygon) or an empty map (the event
+# encoder's channels) are left out: a ROS 2 parameter file cannot give an empty list a type,
+# and rcl's parser refuses an empty map.
 ";
 
 

@@ -154,7 +154,7 @@ fn host(ctx: &Context, spec: &NodeSpec, args: &RosArgs) -> Result<(Node, Served)
     };
     let rt = NodeRuntime::start(spec, &fqn, &flat, &params_source(args))?;
     let rt = Arc::new(Mutex::new(rt));
-    let bridge = Arc::new(Mutex::new(ParamBridge { rt: rt.clone(), logger: logger.clone() }));
+    let bridge = Arc::new(Mutex::new(ParamBridge::new(rt.clone(), logger.clone())));
     let (param_services, _changes) =
         node.make_derived_parameter_handler(bridge).map_err(ros(format!("{fqn}: parameter services")))?;
     tokio::spawn(param_services);
