@@ -64,7 +64,7 @@ impl AirParams {
 
     /// Whether a true wind of `speed` [m/s] is still air.
     pub fn is_still(&self, speed: f64) -> bool {
-        !(speed >= self.min_speed)
+        speed.is_nan() || speed < self.min_speed
     }
 
     /// The direction a true wind `w` comes from [rad], `None` in still air (or non-finite).
