@@ -7,7 +7,8 @@
 //! latest `chem` sample's `channels` when `chem` is connected, otherwise from `channel_names`.
 
 use crate::air::AirSettings;
-use crate::geometry::{GeometryError, SensorArray, Vec2};
+use sillage_air::AirParams;
+use crate::geometry::{GeometryError, SensorArray};
 use crate::timing::TimingSettings;
 use serde::{Deserialize, Serialize};
 use sillage_core::params::{ensure, NodeParams, ParamError};
@@ -60,17 +61,26 @@ pub struct WindParams {
     pub air_speed: f64,
     /// A wind message is valid this long [s] (> 0).
     pub timeout: f64,
-    /// True wind speeds below this are still air: no timing bearing [m/s] (> 0).
+    /// True wind speeds below this are still air: no timing bearing [m/s] (> 0; the shared
+    /// `sillage_air` meaning and default).
     pub min_speed: f64,
-    /// The wind topic is measured on the robot (apparent wind = true wind - robot velocity):
-    /// compensate with odometry.
-    pub apparent: bool,
-    /// Anemometer x in base_link [m].
+    /// A base-frame wind message is the relative wind at the moving anemometer (true wind =
+    /// relative + anemometer velocity from odometry); false: it is already the true wind.
+    /// A message in the odometry's parent frame is always a true wind.
+    pub relative: bool,
+    /// Anemometer x in base_link (lever arm of the rotation term) [m].
     pub anemometer_x: f64,
     /// Anemometer y in base_link [m].
     pub anemometer_y: f64,
     /// An odometry message is valid this long [s] (> 0).
     pub odom_timeout: f64,
+}
+
+impl WindParams {
+    /// The shared air parameters among these.
+    pub fn air(&self) -> AirParams {
+        AirParams { relative: self.relative, anemometer_x: self.anemometer_x, anemometer_y: self.anemometer_y, min_speed: self.min_speed }
+    }
 }
 
 /// Timing cue.
@@ -173,13 +183,14 @@ impl Default for SensorParams {
 
 impl Default for WindParams {
     fn default() -> Self {
+        let air = AirParams::default();
         WindParams {
             air_speed: 0.5,
             timeout: 1.0,
-            min_speed: 0.05,
-            apparent: true,
-            anemometer_x: 0.0,
-            anemometer_y: 0.0,
+            min_speed: air.min_speed,
+            relative: air.relative,
+            anemometer_x: air.anemometer_x,
+            anemometer_y: air.anemometer_y,
             odom_timeout: 0.5,
         }
     }
@@ -275,11 +286,9 @@ impl Params {
         let w = &self.wind;
         AirSettings {
             base_frame: self.base_frame.clone(),
-            apparent: w.apparent,
-            anemometer: Vec2::new(w.anemometer_x, w.anemometer_y),
+            air: w.air(),
             wind_timeout: nanos(w.timeout),
             odom_timeout: nanos(w.odom_timeout),
-            min_speed: w.min_speed,
             air_speed: w.air_speed,
         }
     }
@@ -317,9 +326,7 @@ impl NodeParams for Params {
         let w = &self.wind;
         non_negative(w.air_speed, "wind.air_speed", "[m/s]")?;
         positive(w.timeout, "wind.timeout", "[s]")?;
-        positive(w.min_speed, "wind.min_speed", "[m/s]")?;
-        ensure(w.anemometer_x.is_finite(), "wind.anemometer_x", "must be finite [m]")?;
-        ensure(w.anemometer_y.is_finite(), "wind.anemometer_y", "must be finite [m]")?;
+        w.air().check("wind")?;
         positive(w.odom_timeout, "wind.odom_timeout", "[s]")?;
         let t = &self.timing;
         positive(t.window, "timing.window", "[s]")?;

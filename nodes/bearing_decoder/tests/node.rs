@@ -369,7 +369,7 @@ fn parameter_changes_keep_the_evidence_or_are_refused() {
     let bad: serde_yaml::Value = serde_yaml::from_str("wind: {min_speed: -1.0}").expect("yaml");
     let e = d.node.set_params_yaml(&bad).expect_err("refused");
     assert_eq!(e.key(), "wind.min_speed");
-    assert_eq!(d.node.params().wind.min_speed, 0.05, "old values kept");
+    assert_eq!(d.node.params().wind.min_speed, sillage_air::DEFAULT_MIN_SPEED, "old values kept");
     let yaml = d.node.params_yaml();
     assert_eq!(yaml["timing"]["bearing_spread"], serde_yaml::Value::from(0.2));
 }
