@@ -105,6 +105,12 @@ impl Air {
         self.odom.as_ref().filter(|o| now - o.t <= self.settings.odom_timeout)
     }
 
+    /// The robot's heading [rad, odometry frame] from the latest odometry, fresh or not (a
+    /// heading ages slowly; the onsets are only compared with each other by it).
+    pub fn yaw(&self) -> Option<f64> {
+        self.odom.map(|o| o.yaw)
+    }
+
     /// Takes an odometry message received at `now` [ns].
     pub fn on_odom(&mut self, now: Nanos, m: &Odometry) -> Result<(), InputWarning> {
         let lin = &m.twist.twist.linear;

@@ -115,21 +115,23 @@ impl Amplitude {
         1.0 - (-(dt.max(0) as f64 * 1e-9) / self.settings.tau).exp()
     }
 
-    /// Conditions and smooths one raw value of sensor `sensor` taken at `t` [ns].
-    pub fn on_value(&mut self, sensor: usize, t: Nanos, raw: f64, quantity: u8) -> Result<(), SampleFault> {
+    /// Conditions and smooths one raw value of sensor `sensor` taken at `t` [ns]; returns the
+    /// conditioned value (before negative responses are zeroed), `None` for an unknown sensor.
+    pub fn on_value(&mut self, sensor: usize, t: Nanos, raw: f64, quantity: u8) -> Result<Option<f64>, SampleFault> {
         let alpha = match self.sensors.get(sensor) {
             Some(s) => self.alpha(t - s.t),
-            None => return Ok(()),
+            None => return Ok(None),
         };
-        let Some(s) = self.sensors.get_mut(sensor) else { return Ok(()) };
-        let r = s.conditioner.step(t, raw, quantity)?.max(0.0);
+        let Some(s) = self.sensors.get_mut(sensor) else { return Ok(None) };
+        let conditioned = s.conditioner.step(t, raw, quantity)?;
+        let r = conditioned.max(0.0);
         s.smooth = Some(match s.smooth {
             Some(m) => m + alpha * (r - m),
             None => r,
         });
         s.last = r;
         s.t = t;
-        Ok(())
+        Ok(Some(conditioned))
     }
 
     /// Closes one chem sample at `t` [ns]: updates the contrast statistics from the latest

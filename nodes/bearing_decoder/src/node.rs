@@ -3,8 +3,10 @@
 //!
 //! Every timer tick publishes the current estimate (`cue = NONE` with NaN bearing and lag when
 //! there is nothing to say); with `publish_on_evidence` an odor event array that brings a new
-//! onset publishes one at once as well. Estimates are computed from the onsets of the last
-//! `timing.window` seconds, the latest wind and odometry, and the smoothed chem responses.
+//! onset publishes one at once as well (with `timing.onsets: rise`, a chem sample that confirms
+//! a rise does). Estimates are computed from the onsets of the last onset window
+//! ([`Params::window`]) taken within `timing.max_turn` of the current heading, the latest wind
+//! and odometry, and the smoothed chem responses.
 
 use crate::air::{Air, AirContext};
 use crate::amplitude::{Amplitude, AmplitudeCue, AmplitudeSilence};
@@ -12,7 +14,8 @@ use crate::channels::{ChannelMap, Lookup};
 use crate::fusion::{fuse, Fused, Vote};
 use crate::geometry::SensorArray;
 use crate::onsets::{OnsetTrain, Push};
-use crate::params::Params;
+use crate::params::{OnsetSource, Params};
+use crate::rises::RiseDetector;
 use crate::timing::{TimingCue, TimingDecoder, TimingSilence};
 use crate::warnings::{InputWarning, WarningLog};
 use crate::NODE_NAME;
@@ -71,6 +74,8 @@ pub struct BearingDecoder {
     array: SensorArray,
     channels: ChannelMap,
     trains: Vec<OnsetTrain>,
+    selected: Vec<OnsetTrain>,
+    rises: Vec<RiseDetector>,
     air: Air,
     timing: TimingDecoder,
     amplitude: Amplitude,
@@ -89,6 +94,8 @@ impl BearingDecoder {
         Ok(BearingDecoder {
             channels: ChannelMap::new(&params.channel_names, &array),
             trains: (0..array.len()).map(|_| OnsetTrain::new(capacity)).collect(),
+            selected: (0..array.len()).map(|_| OnsetTrain::new(capacity)).collect(),
+            rises: (0..array.len()).map(|i| RiseDetector::new(params.rise_settings(i))).collect(),
             air: Air::new(params.air_settings()),
             timing: TimingDecoder::new(params.timing_settings()),
             amplitude: Amplitude::new(&params.amplitude, &params.front_back, &array),
@@ -137,12 +144,14 @@ impl BearingDecoder {
 
     /// Computes the estimate at `now` [ns] from the current state (prunes the onset window).
     pub fn estimate(&mut self, now: Nanos) -> Estimate {
-        let start = now.saturating_sub(nanos(self.params.timing.window));
-        for t in &mut self.trains {
+        let start = now.saturating_sub(nanos(self.params.window()));
+        let yaw = self.air.yaw();
+        for (t, sel) in self.trains.iter_mut().zip(&mut self.selected) {
             t.prune(start);
+            t.select_into(sel, yaw, self.params.timing.max_turn);
         }
         let air = self.air.context(now);
-        let timing = self.timing.decode(&self.array, &self.trains, &air);
+        let timing = self.timing.decode(&self.array, &self.selected, &air);
         if timing == Err(TimingSilence::Singular) {
             self.warn(now, InputWarning::SingularFit { stamp: now });
         }
@@ -181,6 +190,8 @@ impl BearingDecoder {
 
     fn on_events(&mut self, now: Nanos, m: &OdorEventArray) -> bool {
         let gap = nanos(self.params.timing.onset_gap);
+        let from_events = self.params.timing.onsets == OnsetSource::FirstEvent;
+        let yaw = self.air.yaw();
         let mut fresh = false;
         for ev in &m.events {
             self.stats.events += 1;
@@ -197,7 +208,13 @@ impl BearingDecoder {
                     continue;
                 }
             };
-            match self.trains[sensor].push(stamp, ev.polarity, gap) {
+            if !from_events {
+                if ev.polarity != OdorEvent::RISING && ev.polarity != OdorEvent::FALLING {
+                    self.warn(now, InputWarning::BadPolarity { stamp, channel: ev.channel, polarity: ev.polarity });
+                }
+                continue;
+            }
+            match self.trains[sensor].push_at(stamp, ev.polarity, gap, yaw) {
                 Push::Onset => {
                     self.stats.onsets += 1;
                     fresh = true;
@@ -214,26 +231,40 @@ impl BearingDecoder {
         fresh
     }
 
-    fn on_chem(&mut self, now: Nanos, m: &ChemSample) {
+    /// Takes a chem sample; true when it confirmed a rise onset (`timing.onsets: rise`).
+    fn on_chem(&mut self, now: Nanos, m: &ChemSample) -> bool {
         let stamp = m.header.stamp.to_nanos();
         let repeated = m.channels.iter().enumerate().any(|(i, n)| m.channels[..i].contains(n));
         if m.values.len() != m.channels.len() || repeated {
             let w = InputWarning::ChemShape { stamp, values: m.values.len(), channels: m.channels.len() };
             self.warn(now, w);
-            return;
+            return false;
         }
         self.channels.update(&m.channels, &self.array);
-        if !self.params.amplitude.enabled {
-            return;
+        let rises = self.params.timing.onsets == OnsetSource::Rise;
+        if !self.params.amplitude.enabled && !rises {
+            return false;
         }
         self.chem_seen = true;
+        let yaw = self.air.yaw();
+        let mut fresh = false;
         for (i, &v) in m.values.iter().enumerate() {
             let Some(sensor) = self.channels.sensor(i) else { continue };
-            if let Err(fault) = self.amplitude.on_value(sensor, now, v, m.quantity) {
-                self.warn(now, InputWarning::ChemValue { stamp, channel: i, reason: fault.to_string() });
+            match self.amplitude.on_value(sensor, now, v, m.quantity) {
+                Err(fault) => self.warn(now, InputWarning::ChemValue { stamp, channel: i, reason: fault.to_string() }),
+                Ok(Some(x)) if rises => {
+                    if let Some(onset) = self.rises[sensor].push(stamp, x) {
+                        if self.trains[sensor].push_onset(onset, yaw) {
+                            self.stats.onsets += 1;
+                            fresh = true;
+                        }
+                    }
+                }
+                Ok(_) => {}
             }
         }
         self.amplitude.end_sample(now);
+        fresh
     }
 }
 
@@ -272,7 +303,12 @@ impl NodeCore for BearingDecoder {
                     self.warn(now, w);
                 }
             }
-            (IN_CHEM, Msg::ChemSample(m)) => self.on_chem(now, m),
+            (IN_CHEM, Msg::ChemSample(m)) => {
+                let fresh = self.on_chem(now, m);
+                if fresh && self.params.publish_on_evidence {
+                    self.publish(now, out);
+                }
+            }
             (IN_ODOM, Msg::Odometry(m)) => {
                 if let Err(w) = self.air.on_odom(now, m) {
                     self.warn(now, w);
@@ -305,8 +341,14 @@ impl NodeCore for BearingDecoder {
         next.stats = std::mem::take(&mut self.stats);
         next.last = self.last.take();
         let same_array = next.array == self.array;
-        if same_array && next.params.timing.max_onsets == self.params.timing.max_onsets {
+        if same_array && next.params.timing.max_onsets == self.params.timing.max_onsets && next.params.timing.onsets == self.params.timing.onsets {
             next.trains = std::mem::take(&mut self.trains);
+        }
+        if same_array && next.params.amplitude.conditioning == self.params.amplitude.conditioning {
+            for (i, (r, old)) in next.rises.iter_mut().zip(&self.rises).enumerate() {
+                *r = old.clone();
+                r.set_settings(next.params.rise_settings(i));
+            }
         }
         if same_array {
             next.channels = self.channels.clone();

@@ -9,6 +9,7 @@
 use crate::air::AirSettings;
 use sillage_air::AirParams;
 use crate::geometry::{GeometryError, SensorArray};
+use crate::rises::RiseSettings;
 use crate::timing::TimingSettings;
 use serde::{Deserialize, Serialize};
 use sillage_core::params::{ensure, NodeParams, ParamError};
@@ -51,6 +52,9 @@ pub struct SensorParams {
     pub x: Vec<f64>,
     /// y of each sensor [m].
     pub y: Vec<f64>,
+    /// Response delay of each sensor, subtracted from its rise onsets [s] (finite; same length
+    /// as `names`, or all zeros for none): aligns sensors whose responses lag each other.
+    pub delay: Vec<f64>,
 }
 
 /// Wind and robot motion.
@@ -83,12 +87,38 @@ impl WindParams {
     }
 }
 
+/// Where the timing cue takes its onsets from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum OnsetSource {
+    /// The slope peak of each rise of the conditioned `chem` signal (slow sensors).
+    Rise,
+    /// The first rising odor event after a fall or a quiet `onset_gap` (fast sensors).
+    FirstEvent,
+}
+
 /// Timing cue.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
 pub struct TimingParams {
-    /// Sliding window of onsets used for the lag [s] (> 0).
+    /// Onsets from `rise` (the chem signal's slope peaks) or `first_event` (odor events).
+    pub onsets: OnsetSource,
+    /// Sliding window of onsets used for the lag [s] (>= 0; 0 = `tau_rise + tau_decay`, one
+    /// full response of the sensors).
     pub window: f64,
+    /// Rise time constant of the sensors [s] (> 0; sizes the window).
+    pub tau_rise: f64,
+    /// Decay time constant of the sensors [s] (> 0; sizes the window).
+    pub tau_decay: f64,
+    /// Slope of the conditioned signal that starts a rise [conditioned units/s] (> 0).
+    pub rise_slope: f64,
+    /// Smoothing time constant of that slope [s] (>= 0).
+    pub slope_tau: f64,
+    /// Smallest gain of the conditioned signal over a rise [conditioned units] (>= 0).
+    pub min_rise: f64,
+    /// Onsets taken while the robot headed more than this away from its heading now are not
+    /// paired (their lags belong to another frame) [rad] (> 0).
+    pub max_turn: f64,
     /// Cross-correlation bin width [s] (> 0, well below the lags of interest).
     pub bin: f64,
     /// Largest lag ever searched [s] (> 0; the search also stops at the plane-wave bound).
@@ -177,7 +207,7 @@ impl Default for Params {
 impl Default for SensorParams {
     /// Left and right at +-half of a 0.2 m spacing on the y axis.
     fn default() -> Self {
-        SensorParams { names: vec!["left".into(), "right".into()], x: vec![0.0, 0.0], y: vec![0.1, -0.1] }
+        SensorParams { names: vec!["left".into(), "right".into()], x: vec![0.0, 0.0], y: vec![0.1, -0.1], delay: vec![0.0, 0.0] }
     }
 }
 
@@ -199,7 +229,14 @@ impl Default for WindParams {
 impl Default for TimingParams {
     fn default() -> Self {
         TimingParams {
-            window: 10.0,
+            onsets: OnsetSource::Rise,
+            window: 0.0,
+            tau_rise: 1.8,
+            tau_decay: 11.1,
+            rise_slope: 0.02,
+            slope_tau: 0.1,
+            min_rise: 0.01,
+            max_turn: 20f64.to_radians(),
             bin: 0.005,
             max_lag: 1.0,
             lag_margin: 0.25,
@@ -263,6 +300,7 @@ impl Params {
             names: self.channel_names.clone(),
             x: sensors.iter().map(|s| s.1).collect(),
             y: sensors.iter().map(|s| s.2).collect(),
+            delay: vec![0.0; sensors.len()],
         };
         self
     }
@@ -291,6 +329,22 @@ impl Params {
             odom_timeout: nanos(w.odom_timeout),
             air_speed: w.air_speed,
         }
+    }
+
+    /// The onset window in use [s]: `timing.window`, or one full response of the sensors.
+    pub fn window(&self) -> f64 {
+        let t = &self.timing;
+        if t.window > 0.0 {
+            t.window
+        } else {
+            t.tau_rise + t.tau_decay
+        }
+    }
+
+    /// Settings of the rise detector of sensor `i` (of `sensors.names`).
+    pub fn rise_settings(&self, i: usize) -> RiseSettings {
+        let t = &self.timing;
+        RiseSettings { slope: t.rise_slope, slope_tau: t.slope_tau, min_rise: t.min_rise, delay: self.sensors.delay.get(i).copied().unwrap_or(0.0) }
     }
 
     /// Settings of the timing cue.
@@ -329,12 +383,22 @@ impl NodeParams for Params {
         w.air().check("wind")?;
         positive(w.odom_timeout, "wind.odom_timeout", "[s]")?;
         let t = &self.timing;
-        positive(t.window, "timing.window", "[s]")?;
+        non_negative(t.window, "timing.window", "[s]")?;
+        positive(t.tau_rise, "timing.tau_rise", "[s]")?;
+        positive(t.tau_decay, "timing.tau_decay", "[s]")?;
+        positive(t.rise_slope, "timing.rise_slope", "[conditioned units/s]")?;
+        non_negative(t.slope_tau, "timing.slope_tau", "[s]")?;
+        non_negative(t.min_rise, "timing.min_rise", "[conditioned units]")?;
+        positive(t.max_turn, "timing.max_turn", "[rad]")?;
+        let s = &self.sensors;
+        let no_delays = s.delay.iter().all(|&d| d == 0.0);
+        ensure(no_delays || s.delay.len() == s.names.len(), "sensors.delay", format!("has {} values for {} sensors", s.delay.len(), s.names.len()))?;
+        ensure(s.delay.iter().all(|d| d.is_finite()), "sensors.delay", "must be finite [s]")?;
         positive(t.bin, "timing.bin", "[s]")?;
         ensure(t.bin >= 1e-6, "timing.bin", "must be >= 1e-6 [s]")?;
         positive(t.max_lag, "timing.max_lag", "[s]")?;
         ensure(t.max_lag / t.bin <= 100_000.0, "timing.max_lag", "must be at most 100000 bins (timing.bin)")?;
-        ensure(t.max_lag < t.window, "timing.max_lag", "must be shorter than timing.window")?;
+        ensure(t.max_lag < self.window(), "timing.max_lag", "must be shorter than the onset window (timing.window, or tau_rise + tau_decay)")?;
         non_negative(t.lag_margin, "timing.lag_margin", "")?;
         non_negative(t.onset_gap, "timing.onset_gap", "[s]")?;
         positive(t.match_tolerance, "timing.match_tolerance", "[s]")?;

@@ -57,6 +57,11 @@ impl RiseDetector {
         RiseDetector { settings, last: None, slope: None, trough: f64::INFINITY, rise: None }
     }
 
+    /// Replaces the settings, keeping the signal state.
+    pub fn set_settings(&mut self, settings: RiseSettings) {
+        self.settings = settings;
+    }
+
     /// Forgets the signal (keeps the settings).
     pub fn reset(&mut self) {
         *self = RiseDetector::new(self.settings);
