@@ -21,7 +21,7 @@ use crate::warnings::{InputWarning, WarningLog};
 use crate::NODE_NAME;
 use sillage_core::msg::*;
 use sillage_core::params::{self, NodeParams, ParamError};
-use sillage_core::time::nanos;
+use sillage_core::time::{nanos, secs};
 use sillage_core::{Msg, Nanos, NodeCore, Outbox, Port, Qos};
 
 /// Input indices.
@@ -78,6 +78,8 @@ pub struct BearingDecoder {
     rises: Vec<RiseDetector>,
     air: Air,
     timing: TimingDecoder,
+    /// The last fresh timing cue: when, its bearing in the odometry frame [rad], the cue.
+    held: Option<(Nanos, f64, TimingCue)>,
     amplitude: Amplitude,
     chem_seen: bool,
     warnings: WarningLog,
@@ -98,6 +100,7 @@ impl BearingDecoder {
             rises: (0..array.len()).map(|i| RiseDetector::new(params.rise_settings(i))).collect(),
             air: Air::new(params.air_settings()),
             timing: TimingDecoder::new(params.timing_settings()),
+            held: None,
             amplitude: Amplitude::new(&params.amplitude, &params.front_back, &array),
             chem_seen: false,
             warnings: WarningLog::default(),
@@ -152,6 +155,7 @@ impl BearingDecoder {
         }
         let air = self.air.context(now);
         let timing = self.timing.decode(&self.array, &self.selected, &air);
+        let timing = self.hold(now, yaw, timing);
         if timing == Err(TimingSilence::Singular) {
             self.warn(now, InputWarning::SingularFit { stamp: now });
         }
@@ -163,6 +167,27 @@ impl BearingDecoder {
             .map(|c| Vote { bearing: c.bearing, confidence: c.confidence, lag: f64::NAN });
         let fused = fuse(t_vote, a_vote, self.params.fusion.min_ratio);
         Estimate { stamp: now, fused, timing, amplitude, air }
+    }
+
+    /// Keeps a fresh timing cue; while the onsets are too few, gives the last one turned into
+    /// the current frame with its confidence falling linearly over `timing.hold`.
+    fn hold(&mut self, now: Nanos, yaw: Option<f64>, fresh: Result<TimingCue, TimingSilence>) -> Result<TimingCue, TimingSilence> {
+        let hold = self.params.timing.hold;
+        match (fresh, yaw) {
+            (Ok(c), Some(y)) => {
+                self.held = Some((now, crate::geometry::angle_diff(c.bearing, -y), c));
+                Ok(c)
+            }
+            (Err(s @ (TimingSilence::NoMatches | TimingSilence::TooFewMatches { .. })), Some(y)) if hold > 0.0 => match self.held {
+                Some((t0, b, c)) if now >= t0 && secs(now - t0) < hold => {
+                    let age = secs(now - t0);
+                    let bearing = crate::geometry::angle_diff(b, y);
+                    Ok(TimingCue { bearing, confidence: c.confidence * (1.0 - age / hold), age, ..c })
+                }
+                _ => Err(s),
+            },
+            (other, _) => other,
+        }
     }
 
     fn publish(&mut self, now: Nanos, out: &mut Outbox) {

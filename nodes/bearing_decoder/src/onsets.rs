@@ -66,7 +66,7 @@ impl OnsetTrain {
         for (&t, &y) in self.onsets.iter().zip(&self.yaws) {
             let keep = match (yaw, y) {
                 (None, _) => true,
-                (Some(now), Some(then)) => wrap(now - then).abs() <= max_turn,
+                (Some(now), Some(then)) => crate::geometry::angle_diff(now, then).abs() <= max_turn,
                 (Some(_), None) => false,
             };
             if keep {
@@ -135,12 +135,6 @@ impl OnsetTrain {
         self.yaws.clear();
         self.last_event = None;
     }
-}
-
-/// `a` wrapped into -pi..pi [rad].
-fn wrap(a: f64) -> f64 {
-    use std::f64::consts::{PI, TAU};
-    (a + PI).rem_euclid(TAU) - PI
 }
 
 #[cfg(test)]

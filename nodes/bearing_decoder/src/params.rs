@@ -103,8 +103,8 @@ pub enum OnsetSource {
 pub struct TimingParams {
     /// Onsets from `rise` (the chem signal's slope peaks) or `first_event` (odor events).
     pub onsets: OnsetSource,
-    /// Sliding window of onsets used for the lag [s] (>= 0; 0 = `tau_rise + tau_decay`, one
-    /// full response of the sensors).
+    /// Sliding window of onsets used for the lag [s] (>= 0; 0 = `2 (tau_rise + tau_decay)`,
+    /// two full responses of the sensors).
     pub window: f64,
     /// Rise time constant of the sensors [s] (> 0; sizes the window).
     pub tau_rise: f64,
@@ -119,6 +119,10 @@ pub struct TimingParams {
     /// Onsets taken while the robot headed more than this away from its heading now are not
     /// paired (their lags belong to another frame) [rad] (> 0).
     pub max_turn: f64,
+    /// While the onsets give no bearing, the last one is held this long [s], kept fixed in the
+    /// odometry frame (turned with the heading) and its confidence falling linearly to zero
+    /// (>= 0; 0 = off; needs odometry).
+    pub hold: f64,
     /// Cross-correlation bin width [s] (> 0, well below the lags of interest).
     pub bin: f64,
     /// Largest lag ever searched [s] (> 0; the search also stops at the plane-wave bound).
@@ -236,14 +240,15 @@ impl Default for TimingParams {
             rise_slope: 0.02,
             slope_tau: 0.1,
             min_rise: 0.01,
-            max_turn: 20f64.to_radians(),
+            max_turn: 30f64.to_radians(),
+            hold: 5.0,
             bin: 0.005,
             max_lag: 1.0,
             lag_margin: 0.25,
             onset_gap: 0.5,
             match_tolerance: 0.1,
             outlier_mad: 3.0,
-            min_matches: 3,
+            min_matches: 2,
             confidence_matches: 5.0,
             bearing_spread: 5f64.to_radians(),
             max_onsets: 256,
@@ -275,7 +280,7 @@ impl Default for AmplitudeParams {
 
 impl Default for FusionParams {
     fn default() -> Self {
-        FusionParams { min_ratio: 0.25 }
+        FusionParams { min_ratio: 0.1 }
     }
 }
 
@@ -331,13 +336,13 @@ impl Params {
         }
     }
 
-    /// The onset window in use [s]: `timing.window`, or one full response of the sensors.
+    /// The onset window in use [s]: `timing.window`, or two full responses of the sensors.
     pub fn window(&self) -> f64 {
         let t = &self.timing;
         if t.window > 0.0 {
             t.window
         } else {
-            t.tau_rise + t.tau_decay
+            2.0 * (t.tau_rise + t.tau_decay)
         }
     }
 
@@ -390,6 +395,7 @@ impl NodeParams for Params {
         non_negative(t.slope_tau, "timing.slope_tau", "[s]")?;
         non_negative(t.min_rise, "timing.min_rise", "[conditioned units]")?;
         positive(t.max_turn, "timing.max_turn", "[rad]")?;
+        non_negative(t.hold, "timing.hold", "[s]")?;
         let s = &self.sensors;
         let no_delays = s.delay.iter().all(|&d| d == 0.0);
         ensure(no_delays || s.delay.len() == s.names.len(), "sensors.delay", format!("has {} values for {} sensors", s.delay.len(), s.names.len()))?;
@@ -398,7 +404,7 @@ impl NodeParams for Params {
         ensure(t.bin >= 1e-6, "timing.bin", "must be >= 1e-6 [s]")?;
         positive(t.max_lag, "timing.max_lag", "[s]")?;
         ensure(t.max_lag / t.bin <= 100_000.0, "timing.max_lag", "must be at most 100000 bins (timing.bin)")?;
-        ensure(t.max_lag < self.window(), "timing.max_lag", "must be shorter than the onset window (timing.window, or tau_rise + tau_decay)")?;
+        ensure(t.max_lag < self.window(), "timing.max_lag", "must be shorter than the onset window (timing.window, or 2 (tau_rise + tau_decay))")?;
         non_negative(t.lag_margin, "timing.lag_margin", "")?;
         non_negative(t.onset_gap, "timing.onset_gap", "[s]")?;
         positive(t.match_tolerance, "timing.match_tolerance", "[s]")?;
@@ -460,7 +466,10 @@ mod tests {
         assert_eq!(key_of("    channel_names: [left, middle]\n"), "channel_names");
         assert_eq!(key_of("    wind:\n      min_speed: .nan\n"), "wind.min_speed");
         assert_eq!(key_of("    timing:\n      bin: -0.01\n"), "timing.bin");
-        assert_eq!(key_of("    timing:\n      max_lag: 20.0\n"), "timing.max_lag");
+        assert_eq!(key_of("    timing:\n      max_lag: 30.0\n"), "timing.max_lag");
+        assert_eq!(key_of("    sensors:\n      delay: [0.1]\n"), "sensors.delay");
+        assert_eq!(key_of("    timing:\n      max_turn: 0.0\n"), "timing.max_turn");
+        assert_eq!(key_of("    timing:\n      onsets: peaks\n"), "timing.onsets");
         assert_eq!(key_of("    front_back:\n      unresolved_scale: 2.0\n"), "front_back.unresolved_scale");
         assert_eq!(key_of("    amplitude:\n      conditioning:\n        gain: 0.0\n"), "amplitude.conditioning.gain");
         assert_eq!(key_of("    timing:\n      no_such: 1\n"), "timing.no_such");
