@@ -133,7 +133,10 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
                     t_err.push(wrap(bearing - truth).abs().to_degrees());
                 }
                 OdorBearing::AMPLITUDE => {
-                    a_err.push(wrap(bearing - truth).abs().to_degrees());
+                    // A side-only answer lies exactly at +-90 deg: judged by its side only.
+                    if (bearing.abs() - PI / 2.0).abs() > 1e-12 {
+                        a_err.push(wrap(bearing - truth).abs().to_degrees());
+                    }
                     // The side the source lies on (left/right of the heading), from the truth.
                     let (src, p, yaw) = (sim.scenario.sources[0].position, poses[yi - 1], yaws[yi - 1].1);
                     let to_src = wrap((src[1] - p[1]).atan2(src[0] - p[0]) - yaw);
@@ -158,7 +161,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let share = 100.0 * covered as f64 / ticks.max(1) as f64;
     println!("in-plume {:.1} s; TIMING or FUSED {share:.1} % of it; median error {:.1} deg (n {})", ticks as f64 * 0.1, median(&mut t_err), t_err.len());
     println!(
-        "AMPLITUDE alone: median error {:.1} deg (n {}); left/right side of the source right {:.1} % (n {})",
+        "AMPLITUDE angle alone: median error {:.1} deg (n {}); AMPLITUDE left/right side of the source right {:.1} % (n {})",
         median(&mut a_err),
         a_err.len(),
         100.0 * a_side.0 as f64 / a_side.1.max(1) as f64,

@@ -161,9 +161,11 @@ impl BearingDecoder {
         }
         let amplitude = (self.params.amplitude.enabled && self.chem_seen).then(|| self.amplitude.cue(now, air.upwind));
         let t_vote = timing.as_ref().ok().map(|c| Vote { bearing: c.bearing, confidence: c.confidence, lag: c.lag });
+        // A side-only amplitude answer is not an angle: it speaks only when timing is silent.
         let a_vote = amplitude
             .as_ref()
             .and_then(|a| a.as_ref().ok())
+            .filter(|c| !(c.side_only && t_vote.is_some()))
             .map(|c| Vote { bearing: c.bearing, confidence: c.confidence, lag: f64::NAN });
         let fused = fuse(t_vote, a_vote, self.params.fusion.min_ratio);
         Estimate { stamp: now, fused, timing, amplitude, air }

@@ -176,6 +176,12 @@ pub struct AmplitudeParams {
     pub contrast_spread: f64,
     /// Trust in the amplitude cue relative to timing (0..1).
     pub weight: f64,
+    /// Gain of each sensor's conditioned response [-] (> 0; same length as `sensors.names`,
+    /// or all ones for none): matches sensors of unequal sensitivity.
+    pub gains: Vec<f64>,
+    /// Two sensors: an amplitude angle further than this from upwind is not trusted; only the
+    /// side (left/right) is published [rad] (0..pi; pi = always the angle).
+    pub max_off_wind: f64,
     /// No chem sample for this long: no amplitude cue [s] (> 0).
     pub timeout: f64,
     /// Conditioning of the raw chem values (the event encoder's, see its docs).
@@ -272,6 +278,8 @@ impl Default for AmplitudeParams {
             saturation: 0.5,
             contrast_spread: 0.2,
             weight: 0.5,
+            gains: vec![1.0, 1.0],
+            max_off_wind: 20f64.to_radians(),
             timeout: 1.0,
             conditioning: ConditioningParams::default(),
         }
@@ -427,6 +435,10 @@ impl NodeParams for Params {
         ensure(a.saturation > 0.0 && a.saturation <= 1.0, "amplitude.saturation", "must be in (0, 1]")?;
         positive(a.contrast_spread, "amplitude.contrast_spread", "")?;
         unit_interval(a.weight, "amplitude.weight")?;
+        let ones = a.gains.iter().all(|&g| g == 1.0);
+        ensure(ones || a.gains.len() == self.sensors.names.len(), "amplitude.gains", format!("has {} values for {} sensors", a.gains.len(), self.sensors.names.len()))?;
+        ensure(a.gains.iter().all(|g| g.is_finite() && *g > 0.0), "amplitude.gains", "must be > 0")?;
+        ensure((0.0..=std::f64::consts::PI).contains(&a.max_off_wind), "amplitude.max_off_wind", "must be in 0..pi [rad]")?;
         positive(a.timeout, "amplitude.timeout", "[s]")?;
         a.conditioning.check("amplitude.conditioning")?;
         unit_interval(self.fusion.min_ratio, "fusion.min_ratio")
