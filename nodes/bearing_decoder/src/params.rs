@@ -180,7 +180,8 @@ pub struct AmplitudeParams {
     /// or all ones for none): matches sensors of unequal sensitivity.
     pub gains: Vec<f64>,
     /// Two sensors: an amplitude angle further than this from upwind is not trusted; only the
-    /// side (left/right) is published [rad] (0..pi; pi = always the angle).
+    /// side (left/right) is published [rad] (0..pi; pi = always the angle, the default until
+    /// the arbiter reads side-only answers).
     pub max_off_wind: f64,
     /// No chem sample for this long: no amplitude cue [s] (> 0).
     pub timeout: f64,
@@ -279,7 +280,7 @@ impl Default for AmplitudeParams {
             contrast_spread: 0.2,
             weight: 0.5,
             gains: vec![1.0, 1.0],
-            max_off_wind: 20f64.to_radians(),
+            max_off_wind: std::f64::consts::PI,
             timeout: 1.0,
             conditioning: ConditioningParams::default(),
         }
