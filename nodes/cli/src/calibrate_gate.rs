@@ -158,9 +158,11 @@ mod tests {
     fn fit(r2: f64, slope: f64, loo: f64) -> Fit {
         Fit {
             use_amplitude: false,
+            use_wind: false,
             intercept: 1.0,
             rate_coef: slope,
             amplitude_coef: 0.0,
+            wind_coef: 0.0,
             n: 40,
             r_squared: r2,
             residual_std: 0.2,
