@@ -102,6 +102,8 @@ pub struct OdomObs {
     pub pose: Pose2,
     /// Planar velocity of base_link in base_link [m/s].
     pub velocity: Vec2,
+    /// Yaw rate [rad/s] (twist.angular.z).
+    pub yaw_rate: f64,
 }
 
 /// A decoded bearing.
@@ -185,9 +187,10 @@ pub fn odom(m: &Odometry, frames: &Frames) -> Result<OdomObs, ArbiterError> {
     }
     let vx = finite(t, "twist.twist.linear.x", m.twist.twist.linear.x)?;
     let vy = finite(t, "twist.twist.linear.y", m.twist.twist.linear.y)?;
+    let wz = finite(t, "twist.twist.angular.z", m.twist.twist.angular.z)?;
     // Normalised first: the yaw formula assumes a unit quaternion.
     let unit = Quaternion { x: q.x / norm, y: q.y / norm, z: q.z / norm, w: q.w / norm };
-    Ok(OdomObs { pose: Pose2 { position: Vec2::new(x, y), yaw: unit.yaw() }, velocity: Vec2::new(vx, vy) })
+    Ok(OdomObs { pose: Pose2 { position: Vec2::new(x, y), yaw: unit.yaw() }, velocity: Vec2::new(vx, vy), yaw_rate: wz })
 }
 
 /// Checks a bearing.

@@ -14,7 +14,7 @@
 //! - [`watchdog`]: input freshness; [`wind`]: wind in odom; [`contact`]: the contact decision;
 //! - [`modes`]: modes, precedence and transitions; [`strategy`]: the behaviour strategies and
 //!   how to add one; [`declare`]: source declaration from the plume features;
-//!   [`front`]: source declaration where the plume keeps ending upwind;
+//!   [`plume_end`]: source declaration where the plume keeps ending upwind;
 //! - [`drive`]: from motion intent to a body command; [`guard`]: caps, rate limits, e-stop
 //!   latch, obstacle stop, geofence;
 //! - [`node`]: the [`NodeCore`](sillage_core::NodeCore) implementation; [`diagnostics`].
@@ -31,7 +31,7 @@ pub mod declare;
 pub mod diagnostics;
 pub mod drive;
 pub mod error;
-pub mod front;
+pub mod plume_end;
 pub mod geometry;
 pub mod guard;
 pub mod inputs;

@@ -18,7 +18,7 @@
 
 use crate::contact::ContactDetector;
 use crate::declare::Declarer;
-use crate::front::FrontTracker;
+use crate::plume_end::PlumeEndTracker;
 use crate::drive::{Cmd, Drive, Motion};
 use crate::error::ArbiterError;
 use crate::geometry::{wrap_angle, Vec2};
@@ -76,7 +76,7 @@ pub struct Arbiter {
     wind: WindEstimator,
     pub(crate) contact: ContactDetector,
     declarer: Declarer,
-    front: FrontTracker,
+    plume_end: PlumeEndTracker,
     was_in_contact: bool,
     pub(crate) modes: ModeMachine,
     odom: Option<OdomObs>,
@@ -117,7 +117,7 @@ impl Arbiter {
             wind: WindEstimator::new(params.wind.clone()),
             contact: ContactDetector::new(params.contact.clone()),
             declarer: Declarer::new(params.declare.clone()),
-            front: FrontTracker::new(params.declare.front.clone()),
+            plume_end: PlumeEndTracker::new(params.declare.plume_end.clone()),
             was_in_contact: false,
             modes: ModeMachine::default(),
             odom: None,
@@ -226,7 +226,7 @@ impl Arbiter {
     fn forget_evidence(&mut self) {
         self.contact.reset();
         self.declarer.reset();
-        self.front.reset();
+        self.plume_end.reset();
         self.was_in_contact = false;
     }
 
@@ -371,14 +371,14 @@ impl Arbiter {
                 let decision = self.strategy.step(&ctx);
                 let upwind = ctx.wind.upwind.or(ctx.wind.last_upwind);
                 if self.was_in_contact && !ctx.contact.in_contact {
-                    self.front.on_loss(upwind);
+                    self.plume_end.on_loss(upwind);
                 }
                 self.was_in_contact = ctx.contact.in_contact;
                 let by_features = self.declarer.ready(now).filter(|_| ctx.contact.in_contact).map(|reason| {
                     (self.declarer.estimate(&odom.pose, self.last_bearing_odom, upwind), reason)
                 });
-                let by_front = || self.front.ready().filter(|_| self.params.declare.enabled);
-                if let Some((estimate, reason)) = by_features.or_else(by_front) {
+                let by_plume_end = || self.plume_end.ready().filter(|_| self.params.declare.enabled);
+                if let Some((estimate, reason)) = by_features.or_else(by_plume_end) {
                     self.declared = Some(Declared { at: now, estimate });
                     self.modes.enter(now, Mode::Declared, reason);
                     let p = PointStamped { header: Header::new(now, &self.params.frames.odom), point: Point { x: estimate.x, y: estimate.y, z: 0.0 } };
@@ -426,7 +426,7 @@ impl Arbiter {
         }
         if next.declare != self.params.declare {
             self.declarer.set_params(next.declare.clone());
-            self.front.set_params(next.declare.front.clone());
+            self.plume_end.set_params(next.declare.plume_end.clone());
         }
         self.drive = Drive { p: next.drive.clone(), base: next.base };
         self.guard.set_params(&next);
@@ -486,9 +486,11 @@ impl NodeCore for Arbiter {
             (Some(Input::OdorEvents), Msg::OdorEventArray(m)) => {
                 self.accept(now, Input::OdorEvents, &m.header.stamp, inputs::events(m, self.params.contact.min_event_level), |s, e| {
                     let at = s.position();
+                    let levels = m.events.iter().map(|ev| (u32::from(ev.channel), ev.polarity, ev.level));
+                    s.contact.on_levels(now, levels, at);
                     let hit = s.contact.on_events(now, e, at);
                     if let (true, Some(at)) = (hit, at) {
-                        s.front.on_event_hit(at);
+                        s.plume_end.on_event_hit(at);
                     }
                 });
             }

@@ -208,7 +208,7 @@ fn the_source_is_declared_where_the_plume_keeps_ending_upwind() {
     // A plume that ends at its source, (5, 0): odor only downwind of it (x < 5), in a wedge
     // that widens downwind (half-width 0.1 m + 0.3 m per metre), no distance cue at all. The robot surges to the end, loses the plume, casts
     // across the last contact point, finds the plume again and surges back to the same end;
-    // the second stall declares (declare.front defaults: radius 0.6 m, 2 stalls).
+    // the second stall declares (declare.plume_end defaults: radius 0.6 m, 2 stalls).
     // Near a source the events are dense: one per sample (20 Hz) inside the plume.
     let src = Vec2::new(5.0, 0.0);
     let plume: Plume = Box::new(move |p, _t| {

@@ -7,7 +7,7 @@
 //! successive re-acquisitions cluster at the source; Li, Farrell, Pang and Arrieta, IEEE
 //! Transactions on Robotics 22(2), 2006, from memory); the thresholds here are ours.
 //!
-//! Contract (thresholds are the `declare.front.*` parameters):
+//! Contract (thresholds are the `declare.plume_end.*` parameters):
 //! - a *contact period* runs from a contact to its loss; its *front* is the upwind-most odom
 //!   position at which a rising-event hit arrived in it, upwind taken as the heading at the
 //!   loss. Periods with fewer than `min_hits` event hits are ignored (a lone spurious event);
@@ -21,7 +21,7 @@
 //! so a position where they still pass is not where the odor was.
 
 use crate::geometry::Vec2;
-use crate::params::FrontParams;
+use crate::params::PlumeEndParams;
 use std::collections::VecDeque;
 
 /// Most hit points remembered per contact period (the oldest are forgotten first).
@@ -29,21 +29,21 @@ const MAX_POINTS: usize = 256;
 
 /// The plume-front tracker.
 #[derive(Debug, Clone)]
-pub struct FrontTracker {
-    p: FrontParams,
+pub struct PlumeEndTracker {
+    p: PlumeEndParams,
     period: VecDeque<Vec2>,
     best: Option<Vec2>,
     stalled: Vec<Vec2>,
 }
 
-impl FrontTracker {
+impl PlumeEndTracker {
     /// No contact yet.
-    pub fn new(p: FrontParams) -> Self {
-        FrontTracker { p, period: VecDeque::new(), best: None, stalled: Vec::new() }
+    pub fn new(p: PlumeEndParams) -> Self {
+        PlumeEndTracker { p, period: VecDeque::new(), best: None, stalled: Vec::new() }
     }
 
     /// Replaces the thresholds and forgets the evidence.
-    pub fn set_params(&mut self, p: FrontParams) {
+    pub fn set_params(&mut self, p: PlumeEndParams) {
         self.p = p;
         self.reset();
     }
@@ -126,15 +126,15 @@ mod tests {
 
     const WEST: f64 = std::f64::consts::PI; // upwind: the wind blows toward +x
 
-    fn period(t: &mut FrontTracker, xs: &[f64], y: f64) {
+    fn period(t: &mut PlumeEndTracker, xs: &[f64], y: f64) {
         for &x in xs {
             t.on_event_hit(Vec2::new(x, y));
         }
         t.on_loss(Some(WEST));
     }
 
-    fn tracker() -> FrontTracker {
-        FrontTracker::new(FrontParams { enabled: true, min_hits: 2, advance: 0.3, radius: 0.6, min_stalls: 2 })
+    fn tracker() -> PlumeEndTracker {
+        PlumeEndTracker::new(PlumeEndParams { enabled: true, min_hits: 2, advance: 0.3, radius: 0.6, min_stalls: 2 })
     }
 
     #[test]
@@ -169,7 +169,7 @@ mod tests {
         t.on_loss(None);
         assert_eq!(t.best(), Some(Vec2::new(2.0, 0.0)), "no wind: no upwind end");
         let mut off = t.clone();
-        off.set_params(FrontParams { enabled: false, ..FrontParams::default() });
+        off.set_params(PlumeEndParams { enabled: false, ..PlumeEndParams::default() });
         assert!(off.best().is_none(), "new parameters forget the evidence");
         period(&mut off, &[2.0, 2.0], 0.0);
         period(&mut off, &[2.0, 2.0], 0.0);
@@ -202,8 +202,8 @@ mod tests {
             min_stalls in 1u32..4,
             enabled in proptest::bool::ANY,
         ) {
-            let p = FrontParams { enabled, min_hits, advance: 0.3, radius: 1.0, min_stalls };
-            let mut t = FrontTracker::new(p);
+            let p = PlumeEndParams { enabled, min_hits, advance: 0.3, radius: 1.0, min_stalls };
+            let mut t = PlumeEndTracker::new(p);
             let (mut lo, mut hi) = (Vec2::new(f64::INFINITY, f64::INFINITY), Vec2::new(f64::NEG_INFINITY, f64::NEG_INFINITY));
             for (points, upwind) in &periods {
                 let before = (t.best(), t.stalls());
