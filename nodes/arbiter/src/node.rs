@@ -473,7 +473,15 @@ impl NodeCore for Arbiter {
         match (Input::from_index(input), msg) {
             (Some(Input::OdorBearing), Msg::OdorBearing(m)) => {
                 let parsed = inputs::bearing(m, frames);
-                self.accept(now, Input::OdorBearing, &m.header.stamp, parsed, |s, b| s.on_bearing(b));
+                // Fed to the watchdog either way; ignored for behaviour when the cue is ablated.
+                self.accept(now, Input::OdorBearing, &m.header.stamp, parsed, |s, b| {
+                    if s.params.cues.use_bearing {
+                        s.on_bearing(b);
+                    } else {
+                        s.bearing = None;
+                        s.last_bearing_odom = None;
+                    }
+                });
             }
             (Some(Input::PlumeFeatures), Msg::PlumeFeatures(m)) => {
                 self.accept(now, Input::PlumeFeatures, &m.header.stamp, inputs::features(m), |s, f| {

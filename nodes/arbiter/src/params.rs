@@ -590,6 +590,28 @@ pub struct Params {
     pub obstacle: ObstacleParams,
     /// Geofence.
     pub geofence: GeofenceParams,
+    /// Which odor cues the behaviour may use (ablation switches).
+    pub cues: CueParams,
+}
+
+/// Which odor cues the behaviour may use. Both off is the ablation that leaves the arbiter
+/// with the wind and the contact decision only, to measure what the direction cues add.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct CueParams {
+    /// Use the content of `odor_bearing` (direction and confidence) for steering and for the
+    /// declared position. When false the bearing is ignored, but `odor_bearing` is still
+    /// required and watchdogged like every input (its liveness keeps the safety contract).
+    pub use_bearing: bool,
+    /// Use a posterior over the source position, once the arbiter takes one (it has no
+    /// posterior input yet; a posterior-based behaviour must honour this switch).
+    pub use_posterior: bool,
+}
+
+impl Default for CueParams {
+    fn default() -> Self {
+        CueParams { use_bearing: true, use_posterior: true }
+    }
 }
 
 impl Default for Params {
@@ -616,6 +638,7 @@ impl Default for Params {
             watchdog: WatchdogParams::default(),
             obstacle: ObstacleParams::default(),
             geofence: GeofenceParams::default(),
+            cues: CueParams::default(),
         }
     }
 }

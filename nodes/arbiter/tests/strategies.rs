@@ -101,6 +101,59 @@ fn reactive_turns_toward_the_bearing() {
 }
 
 #[test]
+fn without_the_bearing_cue_the_reactive_baseline_goes_straight_but_stays_watchdogged() {
+    // The same plume as above, the bearing 1 rad to the left: ablated, it must not turn.
+    let plume = || -> Plume { Box::new(|_, t| Odor { rising: u32::from((t / SAMPLE) % 4 == 0), features: (0.5, 0.2, f64::NAN, f64::NAN), bearing: Some((1.0, 0.9)) }) };
+    let mut p = params(StrategyKind::Reactive);
+    p.cues.use_bearing = false;
+    let mut sim = Sim::new(p.clone(), Pose2::default(), WIND_TO_MINUS_X, plume());
+    sim.feed.wind = false;
+    sim.run(s(8.0));
+    assert_eq!(sim.modes(), vec![Mode::Surging], "{:?}", sim.last_state());
+    assert!(sim.last_state().reason.contains("without bearing"), "{}", sim.last_state().reason);
+    assert!(sim.pose.yaw.abs() < 1e-9 && sim.pose.position.x > 0.5, "straight on: {:?}", sim.pose);
+    // The control: with the cue the same loop turns toward the odor.
+    p.cues.use_bearing = true;
+    let mut on = Sim::new(p, Pose2::default(), WIND_TO_MINUS_X, plume());
+    on.feed.wind = false;
+    on.run(s(8.0));
+    assert!((on.pose.yaw - 1.0).abs() < 0.1, "with the cue it faces the odor: {}", on.pose.yaw);
+}
+
+#[test]
+fn without_the_bearing_cue_a_silent_odor_bearing_still_halts() {
+    use sillage_core::executor::{Executor, Record};
+    use sillage_core::msg::SearchState;
+    let mut p = params(StrategyKind::Reactive);
+    p.cues.use_bearing = false;
+    let mut ex = Executor::new();
+    ex.add(Box::new(sillage_arbiter::Arbiter::new(p).expect("valid"))).expect("wires");
+    let mut last: Option<SearchState> = None;
+    let mut take = |r: &Record| {
+        if let sillage_core::Msg::SearchState(st) = r.msg {
+            last = Some(st.clone());
+        }
+    };
+    // Everything but odor_bearing, at 20 Hz, for 3 s.
+    let mut t = 0;
+    while t < s(3.0) {
+        for (topic, m) in [
+            ("/odom", odom_msg(t, &Pose2::default(), &sillage_arbiter::drive::Cmd::ZERO)),
+            ("/wind", wind_msg(t, WIND_TO_MINUS_X)),
+            ("/odor_events", events_msg(t, 1)),
+            ("/plume_features", features_msg(t, (0.5, 0.2, f64::NAN, f64::NAN))),
+        ] {
+            ex.inject(t, topic, m).expect("input");
+        }
+        ex.run_until(t, &mut take).expect("runs");
+        t += SAMPLE;
+    }
+    let st = last.expect("a state");
+    assert_eq!(st.mode, Mode::Halted.code(), "{st:?}");
+    assert!(st.reason.contains("odor_bearing"), "{}", st.reason);
+}
+
+#[test]
 fn a_stale_wind_halts_only_the_strategies_that_use_it() {
     for (kind, halts) in [(StrategyKind::CastSurge, true), (StrategyKind::Zigzag, true), (StrategyKind::Spiral, false), (StrategyKind::Reactive, false)] {
         let mut sim = Sim::new(params(kind), Pose2::default(), WIND_TO_MINUS_X, odor(100.0));

@@ -57,6 +57,7 @@ impl Evaluator for SimEvaluator {
             stack: StackSetup {
                 config: StackConfig { namespace: self.namespace.clone(), params_file: Some(file), ..Default::default() },
                 strategy: None,
+                ablate_odor_cues: false,
             },
             world: WorldParams::default(),
             options: RunOptions { time_limit: self.time_limit, ..Default::default() },

@@ -19,7 +19,7 @@ fn sim(scenario: Scenario, time_limit: Option<f64>) -> Sim {
     let file = std::env::temp_dir().join(format!("sillage-bench-episode-{}.yaml", std::process::id()));
     std::fs::write(&file, "arbiter:\n  ros__parameters:\n    declare:\n      enabled: false\n").unwrap_or_else(|e| panic!("{}: {e}", file.display()));
     let config = sillage_stack::StackConfig { params_file: Some(file), ..Default::default() };
-    Sim { scenario, stack: StackSetup { config, strategy: None }, world: WorldParams::default(), options }
+    Sim { scenario, stack: StackSetup { config, strategy: None, ablate_odor_cues: false }, world: WorldParams::default(), options }
 }
 
 /// One whole demo episode (240 simulated seconds, laser on).

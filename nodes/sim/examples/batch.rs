@@ -7,7 +7,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let n: usize = args.get(2).map(|s| s.parse()).transpose()?.unwrap_or(10);
     let config = sillage_stack::StackConfig { params_file: std::env::var_os("SIM_PARAMS").map(Into::into), ..Default::default() };
     let time_limit = args.get(4).map(|s| s.parse()).transpose()?;
-    let sim = Sim { stack: StackSetup { strategy: args.get(3).cloned().filter(|s| s != "-"), config }, world: WorldParams::default(), options: RunOptions { time_limit, ..Default::default() }, scenario };
+    let sim = Sim { stack: StackSetup { strategy: args.get(3).cloned().filter(|s| s != "-"), config, ablate_odor_cues: false }, world: WorldParams::default(), options: RunOptions { time_limit, ..Default::default() }, scenario };
     let t = std::time::Instant::now();
     let mut results = Vec::new();
     for i in 0..n {

@@ -8,7 +8,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let scenario = sillage_world::Scenario::from_path(std::path::Path::new(path))?;
     let n: usize = args.get(2).map(|s| s.parse()).transpose()?.unwrap_or(5);
     let config = sillage_stack::StackConfig { params_file: std::env::var_os("SIM_PARAMS").map(Into::into), ..Default::default() };
-    let sim = Sim { stack: StackSetup { strategy: None, config }, world: WorldParams::default(), options: RunOptions { halt_timeout: 1e9, timeline_period: Some(0.1), ..Default::default() }, scenario };
+    let sim = Sim { stack: StackSetup { strategy: None, config, ablate_odor_cues: false }, world: WorldParams::default(), options: RunOptions { halt_timeout: 1e9, timeline_period: Some(0.1), ..Default::default() }, scenario };
     let src = sim.scenario.sources.first().ok_or("the scenario has no source")?.position;
     let wdir = sim.scenario.wind.direction;
     let (dx, dy) = (wdir.cos(), wdir.sin());

@@ -8,7 +8,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let seed = args.get(2).map(|s| s.parse()).transpose()?.unwrap_or(0);
     let limit = args.get(3).map(|s| s.parse()).transpose()?.unwrap_or(240.0);
     let config = sillage_stack::StackConfig { params_file: std::env::var_os("SIM_PARAMS").map(Into::into), ..Default::default() };
-    let sim = Sim { stack: StackSetup { strategy: args.get(4).cloned(), config }, world: WorldParams::default(), options: RunOptions { time_limit: Some(limit), timeline_period: Some(0.1), halt_timeout: 1e9, ..Default::default() }, scenario };
+    let sim = Sim { stack: StackSetup { strategy: args.get(4).cloned(), config, ablate_odor_cues: false }, world: WorldParams::default(), options: RunOptions { time_limit: Some(limit), timeline_period: Some(0.1), halt_timeout: 1e9, ..Default::default() }, scenario };
     let src = sim.scenario.sources[0].position;
     let (mut pose, mut bearing, mut wind) = ((0.0, 0.0, 0.0), (f64::NAN, 0.0, 0u8), (0.0, 0.0));
     let mut events = 0usize;

@@ -13,12 +13,19 @@
 //! [`NodeCore`](sillage_core::NodeCore) and runs in any executor; here it is driven directly so
 //! that the order of same-instant events matches replay.
 //!
-//! Outcomes: a correct declaration ends the episode (success). A false declaration is counted;
-//! then, unless `stop_on_false_declaration`, the runner plays the operator and sends
-//! `e_stop_reset`, which makes the arbiter forget the declaration and search again. The
-//! episode also ends at the time limit, or as *stalled* when the arbiter stays HALTED for
-//! `halt_timeout` (a terminal failure: inputs stopped or the e-stop latched).
+//! Outcomes: a correct declaration ends the episode. It is a *success* (the headline figure)
+//! only when it is the episode's first declaration. A false declaration is counted; then,
+//! unless `stop_on_false_declaration`, the runner plays the operator and sends
+//! `e_stop_reset`, which makes the arbiter forget the declaration and search again; a correct
+//! declaration after such a reset is *correct after resets* (a secondary figure: the operator
+//! knew the truth). The episode also ends at the time limit, or as *stalled* when the arbiter
+//! stays HALTED for `halt_timeout` (a terminal failure: inputs stopped or the e-stop latched).
+//!
+//! Alongside, every [`SAMPLE_PERIOD`](crate::cues::SAMPLE_PERIOD) the runner takes the
+//! world's truth (pose, local wind, concentration at the sensors) and grades the graph's
+//! `odor_bearing` and `plume_features` against it ([`crate::cues`] defines the figures).
 
+use crate::cues::{self, CueLog, CueMetrics, Truth};
 use crate::error::SimError;
 use crate::metrics::{Declaration, ModeLog, Transition};
 use crate::params::WorldParams;
@@ -29,7 +36,7 @@ use sillage_core::executor::{remap_topic, resolve_topic, Executor, Placement, Re
 use sillage_core::msg::{Empty, SearchState};
 use sillage_core::time::{nanos, secs};
 use sillage_core::{Msg, Nanos, NodeCore, Outbox, RosMessage};
-use sillage_world::Scenario;
+use sillage_world::{Scenario, World};
 use std::collections::BTreeMap;
 
 /// Options of the episode loop.
@@ -43,11 +50,14 @@ pub struct RunOptions {
     pub stop_on_false_declaration: bool,
     /// Sample a [`Timeline`] at this period [s] (`None`: no timeline).
     pub timeline_period: Option<f64>,
+    /// In-plume threshold on the true concentration at a sensor [g/m^3] (default: the
+    /// scenario's `sensors.mox.c0`; see [`crate::cues`]).
+    pub in_plume_threshold: Option<f64>,
 }
 
 impl Default for RunOptions {
     fn default() -> Self {
-        RunOptions { time_limit: None, halt_timeout: 30.0, stop_on_false_declaration: false, timeline_period: None }
+        RunOptions { time_limit: None, halt_timeout: 30.0, stop_on_false_declaration: false, timeline_period: None, in_plume_threshold: None }
     }
 }
 
@@ -75,8 +85,10 @@ impl EpisodeSpec {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Outcome {
-    /// Declared within the success radius.
+    /// The first declaration was within the success radius.
     Success,
+    /// Declared within the success radius after false declarations and operator resets.
+    CorrectAfterReset,
     /// Ended at a false declaration (only with `stop_on_false_declaration`).
     FalseDeclaration,
     /// Reached the time limit.
@@ -100,6 +112,35 @@ pub struct Timeline {
     pub mode: Vec<u8>,
     /// Planar distance to the nearest source [m].
     pub distance: Vec<f64>,
+    /// Whether the robot was in the plume ([`crate::cues`]).
+    pub in_plume: Vec<bool>,
+    /// Cue of the bearing that counted (`OdorBearing.cue`; NONE without one).
+    pub cue: Vec<u8>,
+    /// That bearing minus the true source direction, wrapped [rad] (NaN without one).
+    pub bearing_error_source: Vec<f64>,
+    /// That bearing minus the true upwind direction, wrapped [rad] (NaN without one).
+    pub bearing_error_upwind: Vec<f64>,
+    /// ln(latest plume_features distance / true distance) (NaN without an estimate).
+    pub distance_log_ratio: Vec<f64>,
+}
+
+impl Timeline {
+    /// One sample at `t` [s]: the world, the last `chem` values, the mode, the truth, the bearing
+    /// that counts (cue, bearing [rad]) and the last distance estimate [m].
+    #[allow(clippy::too_many_arguments)]
+    fn push(&mut self, t: f64, w: &World, chem: &[f64], mode: u8, truth: &Truth, bearing: Option<(u8, f64)>, distance: f64) {
+        self.t.push(t);
+        self.concentration.push(w.sensor_concentrations());
+        self.resistance.push(chem.to_vec());
+        self.mode.push(mode);
+        self.distance.push(truth.distance);
+        self.in_plume.push(truth.in_plume);
+        self.cue.push(bearing.map_or(sillage_core::msg::OdorBearing::NONE, |c| c.0));
+        self.bearing_error_source.push(bearing.map_or(f64::NAN, |(_, b)| cues::wrap(b - truth.source_direction)));
+        let up = truth.upwind_direction.unwrap_or(f64::NAN);
+        self.bearing_error_upwind.push(bearing.map_or(f64::NAN, |(_, b)| cues::wrap(b - up)));
+        self.distance_log_ratio.push((distance / truth.distance).ln());
+    }
 }
 
 /// The result and metrics of one episode (see [`crate::metrics`] for the definitions).
@@ -109,13 +150,17 @@ pub struct EpisodeResult {
     pub spec: EpisodeSpec,
     /// How it ended.
     pub outcome: Outcome,
-    /// A correct declaration happened.
+    /// The headline: the first declaration was correct (no operator reset before it).
     pub success: bool,
+    /// A correct declaration happened, possibly after false ones and operator resets.
+    pub correct_after_resets: bool,
     /// The robot centre came within the success radius of a source at some time (declared or
     /// not).
     pub reached: bool,
     /// Time of the correct declaration [s].
     pub time_to_declare: Option<f64>,
+    /// From the first contact (first in-plume sample) to the first declaration [s].
+    pub contact_to_declare: Option<f64>,
     /// Time the robot centre first came within the success radius of a source [s].
     pub time_to_reach: Option<f64>,
     /// Path length until then over the straight-line distance.
@@ -158,6 +203,8 @@ pub struct EpisodeResult {
     pub time_in_mode: BTreeMap<&'static str, f64>,
     /// Why the episode stalled.
     pub stalled_reason: Option<String>,
+    /// Closed-loop quality of the odor cues ([`crate::cues`]).
+    pub cues: CueMetrics,
     /// The robot's path (x, y) [m], thinned to >= 5 cm steps.
     #[serde(skip)]
     pub path: Vec<[f64; 2]>,
@@ -190,6 +237,8 @@ struct Topics {
     source_estimate: String,
     chem: String,
     e_stop_reset: String,
+    odor_bearing: String,
+    plume_features: String,
 }
 
 /// Records flowing out of the executor: metrics, commands for the world, and the caller's sink.
@@ -199,6 +248,10 @@ struct Tap<'a> {
     commands: Vec<(Nanos, Msg)>,
     estimates: Vec<(Nanos, [f64; 2])>,
     last_chem: Vec<f64>,
+    /// `odor_bearing` since the last tick: stamp, cue, bearing [rad].
+    bearings: Vec<(Nanos, u8, f64)>,
+    /// `plume_features.distance` since the last tick [m].
+    distances: Vec<f64>,
     user: &'a mut dyn FnMut(&Record),
 }
 
@@ -211,6 +264,8 @@ impl Tap<'_> {
             Msg::PointStamped(p) if t == self.topics.source_estimate => self.estimates.push((r.stamp, [p.point.x, p.point.y])),
             Msg::DiagnosticArray(d) => self.log.on_diagnostics(d),
             Msg::ChemSample(c) if t == self.topics.chem => self.last_chem.clone_from(&c.values),
+            Msg::OdorBearing(b) if t == self.topics.odor_bearing => self.bearings.push((r.stamp, b.cue, b.bearing)),
+            Msg::PlumeFeatures(f) if t == self.topics.plume_features => self.distances.push(f.distance),
             m @ (Msg::Twist(_) | Msg::TwistStamped(_)) if t == self.topics.cmd_vel => self.commands.push((r.stamp, m.clone())),
             _ => {}
         }
@@ -233,6 +288,21 @@ fn inject(ex: &mut Executor, t: Nanos, topic: &str, publisher: &str, msg: Msg, t
 
 fn distance_to_sources(scenario: &Scenario, p: [f64; 2]) -> f64 {
     scenario.sources.iter().map(|s| (s.position[0] - p[0]).hypot(s.position[1] - p[1])).fold(f64::INFINITY, f64::min)
+}
+
+/// The world's truth now ([`crate::cues`]); `threshold` [g/m^3] decides in-plume (and is only
+/// evaluated when given: the concentration at the sensors costs a plume query).
+pub fn truth_of(w: &World, threshold: Option<f64>) -> Truth {
+    let s = w.scenario();
+    let p = w.robot_pose();
+    let nearest = s.sources.iter().min_by(|a, b| {
+        let d = |q: &[f64; 3]| (q[0] - p.x).hypot(q[1] - p.y);
+        d(&a.position).total_cmp(&d(&b.position))
+    });
+    let source_direction = nearest.map_or(f64::NAN, |n| cues::direction_in_frame(n.position[0] - p.x, n.position[1] - p.y, p.yaw));
+    let wind = w.wind_at(p.body_to_world(s.anemometer.position));
+    let in_plume = threshold.is_some_and(|c| w.sensor_concentrations().iter().any(|x| *x >= c));
+    Truth { source_direction, upwind_direction: cues::upwind_in_frame(wind, p.yaw), distance: w.nearest_source_distance(), in_plume }
 }
 
 impl Sim {
@@ -275,15 +345,30 @@ impl Sim {
             source_estimate: r("source_estimate"),
             chem: world_topics[crate::world_node::OUT_CHEM].clone(),
             e_stop_reset: r("e_stop_reset"),
+            odor_bearing: r("odor_bearing"),
+            plume_features: r("plume_features"),
         };
         let t0: Nanos = 0;
         let tick = world.timers()[0];
         let limit = nanos(self.time_limit());
         let halt_timeout = nanos(self.options.halt_timeout);
         let sample_every = self.options.timeline_period.map(|p| (nanos(p) / tick).max(1));
+        let cue_every = (nanos(cues::SAMPLE_PERIOD) / tick).max(1);
+        let threshold = self.options.in_plume_threshold.unwrap_or(self.scenario.sensors.mox.c0);
+        let mut cue_log = CueLog::new();
+        let mut last_distance = f64::NAN;
         let start = world.world().robot_pose();
         let straight = distance_to_sources(&self.scenario, [start.x, start.y]);
-        let mut tap = Tap { topics: &topics, log: ModeLog::new(t0), commands: Vec::new(), estimates: Vec::new(), last_chem: Vec::new(), user: sink };
+        let mut tap = Tap {
+            topics: &topics,
+            log: ModeLog::new(t0),
+            commands: Vec::new(),
+            estimates: Vec::new(),
+            last_chem: Vec::new(),
+            bearings: Vec::new(),
+            distances: Vec::new(),
+            user: sink,
+        };
         let mut timeline = sample_every.map(|_| Timeline { channels: world.world().channel_names().to_vec(), ..Default::default() });
         let mut path = vec![[start.x, start.y]];
         let mut path_step = PATH_STEP;
@@ -323,13 +408,24 @@ impl Sim {
                     path_step *= 2.0;
                 }
             }
-            if let (Some(tl), Some(every)) = (timeline.as_mut(), sample_every) {
-                if k % every == 0 {
-                    tl.t.push(secs(t - t0));
-                    tl.concentration.push(w.sensor_concentrations());
-                    tl.resistance.push(tap.last_chem.clone());
-                    tl.mode.push(tap.log.mode().map_or(255, |(m, _)| m));
-                    tl.distance.push(w.nearest_source_distance());
+            let cue_due = k % cue_every == 0;
+            let timeline_due = sample_every.is_some_and(|every| k % every == 0);
+            if cue_due || timeline_due || !tap.bearings.is_empty() || !tap.distances.is_empty() {
+                let truth = truth_of(w, cue_due.then_some(threshold));
+                for (ts, cue, b) in std::mem::take(&mut tap.bearings) {
+                    cue_log.on_bearing(ts, cue, b, &truth);
+                }
+                for d in std::mem::take(&mut tap.distances) {
+                    cue_log.on_distance(d, &truth);
+                    last_distance = d;
+                }
+                if cue_due {
+                    cue_log.sample(t, secs(t - t0), secs(cue_every * tick), &truth);
+                }
+                if let Some(tl) = timeline.as_mut().filter(|_| timeline_due) {
+                    let truth = if cue_due { truth } else { truth_of(w, Some(threshold)) };
+                    let mode = tap.log.mode().map_or(255, |(m, _)| m);
+                    tl.push(secs(t - t0), w, &tap.last_chem, mode, &truth, cue_log.current(t), last_distance);
                 }
             }
             let mut success = false;
@@ -342,7 +438,7 @@ impl Sim {
                 false_now |= !correct;
             }
             if success {
-                break Outcome::Success;
+                break if declarations.first().is_some_and(|d| d.correct) { Outcome::Success } else { Outcome::CorrectAfterReset };
             }
             if false_now {
                 if self.options.stop_on_false_declaration {
@@ -371,10 +467,16 @@ impl Sim {
         }
         let correct = declarations.iter().find(|d| d.correct);
         let log = tap.log;
+        let cues = cue_log.metrics();
         Ok(EpisodeResult {
             spec,
             outcome,
-            success: correct.is_some(),
+            success: declarations.first().is_some_and(|d| d.correct),
+            correct_after_resets: correct.is_some(),
+            contact_to_declare: match (cues.first_contact, declarations.first()) {
+                (Some(c), Some(d)) if d.t >= c => Some(d.t - c),
+                _ => None,
+            },
             reached: reach.is_some(),
             time_to_reach: reach.map(|r| r.0),
             reach_path_ratio: reach.map(|r| r.1 / straight).filter(|x| x.is_finite()),
@@ -398,6 +500,7 @@ impl Sim {
             transition_log: log.transitions,
             time_in_mode: log.time_in_mode,
             stalled_reason,
+            cues,
             path,
             timeline,
         })

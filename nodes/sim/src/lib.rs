@@ -13,6 +13,7 @@
 //! and its seed, so results do not depend on how many run in parallel.
 
 pub mod convert;
+pub mod cues;
 pub mod episode;
 pub mod error;
 pub mod host;

@@ -6,6 +6,8 @@
 //! over the parameter file): the bearing decoder's `channel_names`, `sensors.{names, x, y}`
 //! (chemical channel positions in base_link) and `wind.anemometer_{x, y}`; the arbiter's
 //! `base` (diff_drive / holonomic) and, with a laser, `obstacle.scan_yaw` (the mount yaw).
+//! With `ablate_odor_cues` the arbiter's `cues.use_bearing` and `cues.use_posterior` are set
+//! to false: the behaviour then sees the wind and the contact decision only.
 //! The effective parameters of every node can be written out ([`effective_params_text`]) so
 //! that `sillage replay --params` rebuilds the very same graph.
 
@@ -24,6 +26,8 @@ pub struct StackSetup {
     pub config: StackConfig,
     /// Arbiter strategy replacing the file's (`cast_surge`, `zigzag`, `spiral`, `reactive`).
     pub strategy: Option<String>,
+    /// Remove the odor direction cues from the arbiter (the ablation; see the module docs).
+    pub ablate_odor_cues: bool,
 }
 
 /// A built stack: the executor (diagnostics at 1 Hz, clock not started) and where its nodes are.
@@ -92,6 +96,10 @@ pub fn build_stack(setup: &StackSetup, scenario: &Scenario) -> Result<BuiltStack
     if let Some(name) = &setup.strategy {
         overrides.push((NodeKind::Arbiter, map(vec![("strategy", Value::from(name.as_str()))])));
     }
+    if setup.ablate_odor_cues {
+        let off = map(vec![("use_bearing", Value::from(false)), ("use_posterior", Value::from(false))]);
+        overrides.push((NodeKind::Arbiter, map(vec![("cues", off)])));
+    }
     let mut doc = Mapping::new();
     for (kind, i) in &nodes {
         let mut params = probe.node(*i).map(|n| n.params_yaml()).unwrap_or(Value::Null);
@@ -108,7 +116,11 @@ pub fn build_stack(setup: &StackSetup, scenario: &Scenario) -> Result<BuiltStack
     for (kind, _) in &nodes {
         let fqn = node_fqn(*kind, &cfg.namespace);
         let core = kind.build_from_str(Some(&text), "(parameters with the scenario's geometry and the strategy override)", &fqn).map_err(|e| {
-            let what = if setup.strategy.is_some() { "robot geometry from the scenario or strategy" } else { "robot geometry from the scenario" };
+            let what = match (setup.strategy.is_some(), setup.ablate_odor_cues) {
+                (false, false) => "robot geometry from the scenario",
+                (true, false) => "robot geometry from the scenario or strategy",
+                (_, true) => "robot geometry from the scenario, strategy or cue ablation",
+            };
             match e {
                 sillage_core::params::ParamFileError::Param { error, .. } => SimError::Override { node: fqn.clone(), what: what.into(), error },
                 other => SimError::Stack(other.into()),
@@ -175,6 +187,17 @@ mod tests {
         assert_eq!(b.cmd_vel_type, "geometry_msgs/msg/TwistStamped");
         let text = effective_params_text(&b, "", &[]);
         assert!(text.contains("/arbiter:") && text.contains("ros__parameters") && text.contains("reactive"), "{text}");
+        assert_eq!(a["cues"]["use_bearing"], Value::from(true));
+    }
+
+    #[test]
+    fn the_ablation_turns_the_direction_cues_off() {
+        let setup = StackSetup { ablate_odor_cues: true, ..Default::default() };
+        let b = build_stack(&setup, &demo()).expect("builds");
+        let a = b.executor.node(b.arbiter).expect("arbiter").params_yaml();
+        assert_eq!(a["cues"]["use_bearing"], Value::from(false));
+        assert_eq!(a["cues"]["use_posterior"], Value::from(false));
+        assert_eq!(a["strategy"], Value::from("cast_surge"));
     }
 
     #[test]

@@ -1,11 +1,19 @@
-//! Statistics over episodes: success rate with its Wilson score interval, quantiles of the time
-//! to declare and of the path ratio (over successful episodes), and totals.
+//! Statistics over episodes: the headline success rate (first declaration correct) and the
+//! secondary "correct after resets" rate, each with its Wilson score interval; quantiles of
+//! the time to declare and of the path ratio (over successful episodes), of the time from first
+//! contact to declaration; time in each mode; the odor cues' figures; totals.
+//!
+//! Cue figures over episodes ([`CueSummary`], definitions in [`crate::cues`]): coverage pools
+//! the time (covered in-plume time of all episodes / their in-plume time); each error is the
+//! distribution over episodes of the per-episode medians (every episode with at least one
+//! value weighs the same).
 //!
 //! Wilson score interval (Wilson, J. Am. Stat. Assoc. 22:209-212, 1927): with p = k/n and
 //! z the normal quantile, centre (p + z^2/2n) / (1 + z^2/n), half-width
 //! z sqrt(p(1-p)/n + z^2/4n^2) / (1 + z^2/n). Quantiles interpolate linearly between order
 //! statistics (Hyndman and Fan type 7, numpy's default).
 
+use crate::cues::{ErrorStat, CUE_NAMES};
 use crate::episode::{EpisodeResult, Outcome};
 use serde::Serialize;
 use std::collections::BTreeMap;
@@ -73,18 +81,22 @@ impl Quantiles {
 pub struct Summary {
     /// Episodes.
     pub episodes: usize,
-    /// Successful episodes.
+    /// Successful episodes: the first declaration was correct (the headline).
     pub successes: usize,
     /// successes / episodes.
     pub success_rate: f64,
     /// Wilson 95 % interval of the success rate (low, high).
     pub success_wilson95: (f64, f64),
+    /// Episodes with a correct declaration, after operator resets or not (secondary).
+    pub correct_after_resets: usize,
+    /// Wilson 95 % interval of the correct-after-resets rate (low, high).
+    pub correct_after_resets_wilson95: (f64, f64),
+    /// Episodes with at least one false declaration.
+    pub episodes_with_false_declarations: usize,
     /// Episodes in which the robot came within the success radius (declared or not).
     pub reached: usize,
     /// Wilson 95 % interval of the reach rate (low, high).
     pub reached_wilson95: (f64, f64),
-    /// Episodes whose first declaration was correct.
-    pub first_declaration_correct: usize,
     /// Outcome counts.
     pub outcomes: BTreeMap<&'static str, usize>,
     /// Time to a correct declaration [s], successful episodes.
@@ -97,6 +109,12 @@ pub struct Summary {
     pub reach_path_ratio: Option<Quantiles>,
     /// Smallest distance to the source reached [m], all episodes.
     pub min_distance: Option<Quantiles>,
+    /// From the first contact to the first declaration [s], episodes with both.
+    pub contact_to_declare: Option<Quantiles>,
+    /// Time in each mode [s], all episodes together.
+    pub time_in_mode: BTreeMap<&'static str, f64>,
+    /// The odor cues' figures.
+    pub cues: CueSummary,
     /// False declarations, all episodes.
     pub false_declarations: u64,
     /// HALTED entries after start-up, all episodes.
@@ -113,9 +131,55 @@ pub struct Summary {
     pub sim_time: f64,
 }
 
-fn outcome_name(o: Outcome) -> &'static str {
+/// The odor cues over episodes (see the module docs).
+#[derive(Debug, Clone, Default, PartialEq, Serialize)]
+pub struct CueSummary {
+    /// In-plume time, all episodes [s].
+    pub in_plume_time: f64,
+    /// Share of the in-plume time with a bearing of each cue (`timing`, `amplitude`, `fused`,
+    /// `any`); `None` without in-plume time.
+    pub coverage: BTreeMap<&'static str, Option<f64>>,
+    /// Per-episode median bearing errors against the source, per cue and `all` [rad].
+    pub bearing_error_source: BTreeMap<&'static str, Quantiles>,
+    /// Per-episode median bearing errors against upwind, per cue and `all` [rad].
+    pub bearing_error_upwind: BTreeMap<&'static str, Quantiles>,
+    /// Per-episode median distance errors |ln(estimate / truth)|.
+    pub distance_error: Option<Quantiles>,
+}
+
+impl CueSummary {
+    /// The cue figures of `results`.
+    pub fn of(results: &[EpisodeResult]) -> CueSummary {
+        let in_plume_time: f64 = results.iter().map(|r| r.cues.in_plume_time).sum();
+        let mut coverage = BTreeMap::new();
+        for name in CUE_NAMES.iter().chain(&["any"]) {
+            let covered: f64 = results.iter().filter_map(|r| r.cues.covered_time.get(name)).sum();
+            coverage.insert(*name, (in_plume_time > 0.0).then(|| covered / in_plume_time));
+        }
+        let per_cue = |get: &dyn Fn(&EpisodeResult) -> &BTreeMap<&'static str, ErrorStat>| {
+            let mut m = BTreeMap::new();
+            for name in CUE_NAMES.iter().chain(&["all"]) {
+                if let Some(q) = Quantiles::of(results.iter().filter_map(|r| get(r).get(name).map(|e| e.median))) {
+                    m.insert(*name, q);
+                }
+            }
+            m
+        };
+        CueSummary {
+            in_plume_time,
+            coverage,
+            bearing_error_source: per_cue(&|r| &r.cues.bearing_error_source),
+            bearing_error_upwind: per_cue(&|r| &r.cues.bearing_error_upwind),
+            distance_error: Quantiles::of(results.iter().filter_map(|r| r.cues.distance_error.map(|e| e.median))),
+        }
+    }
+}
+
+/// The snake_case name of an outcome (as in `episodes.json`).
+pub fn outcome_name(o: Outcome) -> &'static str {
     match o {
         Outcome::Success => "success",
+        Outcome::CorrectAfterReset => "correct_after_reset",
         Outcome::FalseDeclaration => "false_declaration",
         Outcome::TimeLimit => "time_limit",
         Outcome::Stalled => "stalled",
@@ -129,8 +193,13 @@ impl Summary {
         let ok: Vec<&EpisodeResult> = results.iter().filter(|r| r.success).collect();
         let mut outcomes = BTreeMap::new();
         let mut halt_reasons = BTreeMap::new();
+        let mut time_in_mode = BTreeMap::new();
+        let after_resets = results.iter().filter(|r| r.correct_after_resets).count();
         for r in results {
             *outcomes.entry(outcome_name(r.outcome)).or_default() += 1;
+            for (k, v) in &r.time_in_mode {
+                *time_in_mode.entry(*k).or_default() += v;
+            }
             for (k, v) in &r.halt_reasons {
                 *halt_reasons.entry(k.clone()).or_default() += u64::from(*v);
             }
@@ -140,15 +209,20 @@ impl Summary {
             successes: ok.len(),
             success_rate: if n > 0 { ok.len() as f64 / n as f64 } else { 0.0 },
             success_wilson95: wilson(ok.len(), n, Z95),
+            correct_after_resets: after_resets,
+            correct_after_resets_wilson95: wilson(after_resets, n, Z95),
+            episodes_with_false_declarations: results.iter().filter(|r| r.false_declarations > 0).count(),
             reached: results.iter().filter(|r| r.reached).count(),
             reached_wilson95: wilson(results.iter().filter(|r| r.reached).count(), n, Z95),
-            first_declaration_correct: results.iter().filter(|r| r.first_declaration_correct == Some(true)).count(),
             outcomes,
             time_to_declare: Quantiles::of(ok.iter().filter_map(|r| r.time_to_declare)),
             path_ratio: Quantiles::of(ok.iter().map(|r| r.path_ratio)),
             time_to_reach: Quantiles::of(results.iter().filter_map(|r| r.time_to_reach)),
             reach_path_ratio: Quantiles::of(results.iter().filter_map(|r| r.reach_path_ratio)),
             min_distance: Quantiles::of(results.iter().map(|r| r.min_distance)),
+            contact_to_declare: Quantiles::of(results.iter().filter_map(|r| r.contact_to_declare)),
+            time_in_mode,
+            cues: CueSummary::of(results),
             false_declarations: results.iter().map(|r| u64::from(r.false_declarations)).sum(),
             halts: results.iter().map(|r| u64::from(r.halts)).sum(),
             halt_reasons,

@@ -18,7 +18,7 @@ fn cast_surge_declares_the_demo_source_in_most_seeds() {
     let scenario = Scenario::from_path(&root.join("config/scenarios/demo.yaml")).unwrap_or_else(|e| panic!("{e}"));
     let sim = Sim {
         scenario,
-        stack: StackSetup { config: StackConfig::default(), strategy: Some("cast_surge".into()) },
+        stack: StackSetup { config: StackConfig::default(), strategy: Some("cast_surge".into()), ablate_odor_cues: false },
         world: WorldParams::default(),
         options: RunOptions::default(),
     };
