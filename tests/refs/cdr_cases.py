@@ -67,6 +67,16 @@ UTF8 = "capteur_é"    # 10 bytes of UTF-8 + NUL = 11: non-ASCII and odd
 WIND = "vent 🌬 amont"  # a 4-byte UTF-8 character
 
 
+def metadata(load: dict, resolution: float, width: int, height: int, origin: dict) -> dict:
+    return {"map_load_time": load, "resolution": resolution, "width": width, "height": height,
+            "origin": origin}
+
+
+META0 = metadata(ros_time(0, 0), 0.0, 0, 0, POSE0)
+# A 3 x 2 grid of 0.25 m cells whose corner is at (-3.25, 12.5), turned by -45 deg.
+META1 = metadata(ros_time(1767225600, 1), 0.25, 3, 2, POSE1)
+
+
 def kv(key: str, value: str) -> dict:
     return {"key": key, "value": value}
 
@@ -134,6 +144,13 @@ CASES: dict[str, list[tuple[str, dict]]] = {
         ("zero", {"pose": POSE0, "covariance": COV0}),
         ("mixed", {"pose": POSE1, "covariance": COV1}),
     ],
+    "geometry_msgs/msg/PoseWithCovarianceStamped": [
+        ("empty_frame", {"header": H0, "pose": {"pose": POSE0, "covariance": COV0}}),
+        ("posterior_odd_frame", {"header": header(1767225600, 250000000, ODD),
+                                 "pose": {"pose": POSE1, "covariance": COV1}}),
+        ("utf8_frame", {"header": header(7, 3, UTF8),
+                        "pose": {"pose": pose(MIXED3, YAW_QUARTER), "covariance": COV1[::-1]}}),
+    ],
     "geometry_msgs/msg/Twist": [
         ("zero", TWIST0),
         ("mixed", TWIST1),
@@ -156,6 +173,19 @@ CASES: dict[str, list[tuple[str, dict]]] = {
                                "child_frame_id": "base_link",
                                "pose": {"pose": POSE1, "covariance": COV1},
                                "twist": {"twist": TWIST1, "covariance": COV1[::-1]}}),
+    ],
+    "nav_msgs/msg/MapMetaData": [
+        ("zero", META0),
+        ("mixed", META1),
+    ],
+    "nav_msgs/msg/OccupancyGrid": [
+        ("empty_grid", {"header": H0, "info": META0, "data": []}),
+        # 3 x 2 cells, row-major from (0, 0): an odd count of int8 values ends the buffer.
+        ("three_by_two_odd_frame", {"header": header(1767225600, 500000000, ODD), "info": META1,
+                                    "data": [0, 100, -1, 127, -128, 7]}),
+        ("one_cell_utf8_frame", {"header": header(2, 1, UTF8),
+                                 "info": metadata(ros_time(-1, 5), f32(0.05), 1, 1, POSE0),
+                                 "data": [42]}),
     ],
     "sensor_msgs/msg/LaserScan": [
         ("empty_ranges", {"header": H0, "angle_min": 0.0, "angle_max": 0.0,

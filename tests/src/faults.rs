@@ -86,6 +86,8 @@ pub fn header_mut(msg: &mut Msg) -> Option<&mut Header> {
         Msg::TwistStamped(m) => Some(&mut m.header),
         Msg::PointStamped(m) => Some(&mut m.header),
         Msg::DiagnosticArray(m) => Some(&mut m.header),
+        Msg::OccupancyGrid(m) => Some(&mut m.header),
+        Msg::PoseWithCovarianceStamped(m) => Some(&mut m.header),
         Msg::Clock(_) | Msg::Bool(_) | Msg::Empty(_) | Msg::Twist(_) => None,
     }
 }

@@ -13,7 +13,7 @@ pub fn msg_to_json(msg: &Msg) -> serde_json::Value {
     }
     each!(
         ChemSample, OdorEventArray, OdorBearing, PlumeFeatures, SearchState, Vector3Stamped, Odometry, Bool, Empty, LaserScan,
-        Twist, TwistStamped, PointStamped, DiagnosticArray, Clock
+        Twist, TwistStamped, PointStamped, DiagnosticArray, Clock, OccupancyGrid, PoseWithCovarianceStamped
     )
     .unwrap_or(serde_json::Value::Null)
 }

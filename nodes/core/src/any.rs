@@ -1,7 +1,8 @@
 //! [`Msg`]: the closed set of messages that travel between node cores, with decoding and
 //! encoding by ROS type name (what bag readers and raw transports need).
 //!
-//! Variants whose message is large (Odometry with its two 36-element covariances, LaserScan)
+//! Variants whose message is large (Odometry with its two 36-element covariances, LaserScan,
+//! OccupancyGrid, PoseWithCovarianceStamped)
 //! hold it in a `Box`, so a `Msg` stays small (about 100 bytes) as it moves through the
 //! executor's queues: the enum is as large as its largest variant.
 
@@ -100,6 +101,7 @@ macro_rules! vocabulary {
             (<PoseWithCovariance as RosMessage>::TYPE_NAME, <PoseWithCovariance as RosMessage>::DEFINITION),
             (<Twist as RosMessage>::TYPE_NAME, <Twist as RosMessage>::DEFINITION),
             (<TwistWithCovariance as RosMessage>::TYPE_NAME, <TwistWithCovariance as RosMessage>::DEFINITION),
+            (<MapMetaData as RosMessage>::TYPE_NAME, <MapMetaData as RosMessage>::DEFINITION),
             (<KeyValue as RosMessage>::TYPE_NAME, <KeyValue as RosMessage>::DEFINITION),
             (<DiagnosticStatus as RosMessage>::TYPE_NAME, <DiagnosticStatus as RosMessage>::DEFINITION),
             (<OdorEvent as RosMessage>::TYPE_NAME, <OdorEvent as RosMessage>::DEFINITION),
@@ -123,6 +125,8 @@ vocabulary!(
     PointStamped: inline,
     DiagnosticArray: inline,
     Clock: inline,
+    OccupancyGrid: boxed,
+    PoseWithCovarianceStamped: boxed,
 );
 
 /// `pkg/Type` -> `pkg/msg/Type`; full names pass through (without allocating).
@@ -171,6 +175,8 @@ impl Msg {
             Msg::TwistStamped(m) => &m.header,
             Msg::PointStamped(m) => &m.header,
             Msg::DiagnosticArray(m) => &m.header,
+            Msg::OccupancyGrid(m) => &m.header,
+            Msg::PoseWithCovarianceStamped(m) => &m.header,
             Msg::Clock(c) => return Some(c.clock.to_nanos()),
             Msg::Bool(_) | Msg::Empty(_) | Msg::Twist(_) => return None,
         };
@@ -191,6 +197,8 @@ mod tests {
             Empty::default().into(),
             DiagnosticArray::default().into(),
             Clock::default().into(),
+            OccupancyGrid { data: vec![0, -1, 100], ..Default::default() }.into(),
+            PoseWithCovarianceStamped::default().into(),
         ];
         for m in samples {
             let b = m.encode().expect("encodes");

@@ -50,7 +50,7 @@ fn every_fixture_case_matches_rosbags_bytes() {
         let r = dispatch!(c, Time, Clock, Header, Bool, Empty, Vector3, Vector3Stamped, Point, PointStamped,
             Quaternion, Pose, PoseWithCovariance, Twist, TwistStamped, TwistWithCovariance, Odometry,
             LaserScan, KeyValue, DiagnosticStatus, DiagnosticArray, ChemSample, OdorEvent, OdorEventArray,
-            OdorBearing, PlumeFeatures, SearchState);
+            OdorBearing, PlumeFeatures, SearchState, PoseWithCovarianceStamped, MapMetaData, OccupancyGrid);
         match r {
             None => failures.push(format!("{} / {}: no Rust mirror for this type", c.type_name, c.case)),
             Some(Err(e)) => failures.push(format!("{} / {}: {e}", c.type_name, c.case)),
@@ -58,6 +58,6 @@ fn every_fixture_case_matches_rosbags_bytes() {
         }
     }
     assert!(failures.is_empty(), "{}", failures.join("\n"));
-    assert_eq!(per_type.len(), 26, "every vocabulary type has fixture cases: {per_type:?}");
+    assert_eq!(per_type.len(), 29, "every vocabulary type has fixture cases: {per_type:?}");
     assert!(cases.len() >= 50, "only {} cases", cases.len());
 }

@@ -9,7 +9,8 @@ const TYPES: &[&str] = &[
     "sillage_msgs/msg/PlumeFeatures", "sillage_msgs/msg/SearchState", "geometry_msgs/msg/Vector3Stamped",
     "nav_msgs/msg/Odometry", "std_msgs/msg/Bool", "std_msgs/msg/Empty", "sensor_msgs/msg/LaserScan",
     "geometry_msgs/msg/Twist", "geometry_msgs/msg/TwistStamped", "geometry_msgs/msg/PointStamped",
-    "diagnostic_msgs/msg/DiagnosticArray", "rosgraph_msgs/msg/Clock",
+    "diagnostic_msgs/msg/DiagnosticArray", "rosgraph_msgs/msg/Clock", "nav_msgs/msg/OccupancyGrid",
+    "geometry_msgs/msg/PoseWithCovarianceStamped",
 ];
 
 fn seeds() -> Vec<Vec<u8>> {

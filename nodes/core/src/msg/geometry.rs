@@ -97,6 +97,14 @@ ros_message! {
 }
 
 ros_message! {
+    /// geometry_msgs/PoseWithCovarianceStamped (the source posterior: mean position and its
+    /// covariance in `header.frame_id`).
+    #[derive(Default)]
+    PoseWithCovarianceStamped = "geometry_msgs/msg/PoseWithCovarianceStamped", "std_msgs/Header header\nPoseWithCovariance pose\n";
+    { header: Header, pose: PoseWithCovariance }
+}
+
+ros_message! {
     /// geometry_msgs/Twist: linear [m/s] and angular [rad/s] velocity.
     #[derive(Default, Copy)]
     Twist = "geometry_msgs/msg/Twist", "Vector3 linear\nVector3 angular\n";
