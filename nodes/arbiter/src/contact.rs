@@ -16,8 +16,10 @@
 //! - a *level hit* is a sustained concentration above the clean-air baseline: on an events
 //!   array, some channel's last event level (conditioned units, 0 = the channel's baseline)
 //!   is at least `level_enter` (`level_exit` while in contact) and that channel is not
-//!   falling: its last event rose, or came `level_steady` seconds ago or more (a steady signal
-//!   sends no events). Smooth, time-averaged plumes send few events but hold a level; a
+//!   falling: its last event rose less than `level_steady` seconds ago, or came `level_steady`
+//!   seconds ago or more (a steady signal sends no events) on a channel that has sent falling
+//!   events before (an encoder that publishes rises only, or a channel gone silent, would
+//!   otherwise hold a level for ever). Smooth, time-averaged plumes send few events but hold a level; a
 //!   signal decaying after the plume was left sends falling events and gives no level hit.
 //!   `level_enter = 0` switches level hits off;
 //! - every hit refreshes the last contact time; the robot is in contact until `loss_timeout`
@@ -110,6 +112,7 @@ struct ChannelLevel {
     level: f64,
     rising: bool,
     at: Nanos,
+    falls_seen: bool,
 }
 
 /// Most channels whose levels are tracked (the oldest are forgotten first).
@@ -189,9 +192,12 @@ impl ContactDetector {
             if !level.is_finite() {
                 continue;
             }
-            let e = ChannelLevel { channel, level, rising: polarity > 0, at: now };
+            let mut e = ChannelLevel { channel, level, rising: polarity > 0, at: now, falls_seen: polarity < 0 };
             match self.levels.iter_mut().find(|c| c.channel == channel) {
-                Some(c) => *c = e,
+                Some(c) => {
+                    e.falls_seen |= c.falls_seen;
+                    *c = e;
+                }
                 None => {
                     if self.levels.len() == MAX_LEVEL_CHANNELS {
                         self.levels.remove(0);
@@ -205,7 +211,10 @@ impl ContactDetector {
         }
         let threshold = if self.in_contact(now) { self.p.level_exit } else { self.p.level_enter };
         let steady = nanos(self.p.level_steady);
-        let sustained = self.levels.iter().any(|c| c.level >= threshold && (c.rising || now.saturating_sub(c.at) >= steady));
+        let sustained = self.levels.iter().any(|c| {
+            let old = now.saturating_sub(c.at) >= steady;
+            c.level >= threshold && if old { c.falls_seen } else { c.rising }
+        });
         if sustained {
             self.hit(now, at, HitCause::Level);
         }
@@ -286,21 +295,27 @@ mod tests {
         let p = ContactParams { level_enter: 0.2, level_exit: 0.1, level_steady: 3.0, ..Default::default() };
         let mut c = ContactDetector::new(p);
         assert!(!c.on_levels(0, [(0, 1, 0.15)], None), "below level_enter");
+        assert!(!c.on_levels(0, [(0, -1, 0.05)], None), "channel 0 back near its baseline");
         assert!(c.on_levels(SECOND, [(1, 1, 0.25)], Some(Vec2::new(4.0, 0.0))), "channel 1 rose above level_enter");
         assert_eq!(c.view(SECOND).cause, Some(HitCause::Level));
         assert_eq!(c.view(SECOND).point, Some(Vec2::new(4.0, 0.0)));
         // Falling on channel 1 but still above the exit level: no hit while it falls.
         assert!(!c.on_levels(2 * SECOND, [(1, -1, 0.2)], None));
         // No new event for 3 s: a steady signal above level_exit is a hit again (empty arrays).
+        assert!(c.in_contact(3 * SECOND));
         assert!(!c.on_levels(4 * SECOND, [], None));
-        assert!(c.in_contact(4 * SECOND));
-        assert!(c.on_levels(5 * SECOND, [], None), "steady for 3 s at 0.2 >= 0.1");
+        assert!(!c.in_contact(4 * SECOND), "the falling stretch gave no hit: lost after loss_timeout");
+        assert!(c.on_levels(5 * SECOND, [], None), "steady for 3 s at 0.2 >= level_enter");
         // Decayed below the exit level: nothing, and the contact times out.
         c.on_levels(6 * SECOND, [(1, -1, 0.05), (0, -1, 0.0)], None);
         for k in 7..=12 {
             assert!(!c.on_levels(k * SECOND, [], None));
         }
         assert!(!c.in_contact(12 * SECOND));
+        // A channel that never sent a falling event gets no credit for a steady level.
+        let mut rises_only = ContactDetector::new(ContactParams { level_enter: 0.2, level_exit: 0.1, level_steady: 3.0, ..Default::default() });
+        assert!(rises_only.on_levels(0, [(0, 1, 0.5)], None));
+        assert!(!rises_only.on_levels(10 * SECOND, [], None), "no falls seen: no steady hold");
         let mut off = ContactDetector::new(ContactParams { level_enter: 0.0, ..Default::default() });
         assert!(!off.on_levels(0, [(0, 1, 5.0)], None), "level_enter 0 switches level hits off");
         assert!(!off.on_levels(0, [(0, 1, f64::NAN)], None));

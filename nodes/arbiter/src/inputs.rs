@@ -13,6 +13,8 @@
 //!   fed but is no evidence of contact, since every comparison with NaN fails); distance NaN
 //!   (uncalibrated) or finite >= 0; sigma not negative (NaN or +inf: distance unusable).
 //! - `odor_events`: every polarity is +1 or -1.
+//! - `source_posterior`: frame `frames.odom` (or empty); the checks of
+//!   [`crate::posterior::Posterior::from_parts`] (finite mean, symmetric PSD covariance).
 //! - `scan`: finite non-zero `angle_increment`, finite `angle_min`, `0 <= range_min <
 //!   range_max`, and at least one beam inside the forward sector. In the sector (REP 117):
 //!   NaN and finite readings outside [range_min, range_max] are ignored, +inf is a clear beam,
@@ -43,10 +45,12 @@ pub enum Input {
     EStopReset = 6,
     /// `scan` (LaserScan).
     Scan = 7,
+    /// `source_posterior` (PoseWithCovarianceStamped, optional: no watchdog).
+    SourcePosterior = 8,
 }
 
 /// Number of inputs.
-pub const INPUTS: usize = 8;
+pub const INPUTS: usize = 9;
 
 impl Input {
     /// Every input in port order.
@@ -59,6 +63,7 @@ impl Input {
         Input::EStop,
         Input::EStopReset,
         Input::Scan,
+        Input::SourcePosterior,
     ];
 
     /// The input at port index `i`.
@@ -82,6 +87,7 @@ impl Input {
             Input::EStop => "e_stop",
             Input::EStopReset => "e_stop_reset",
             Input::Scan => "scan",
+            Input::SourcePosterior => "source_posterior",
         }
     }
 }
@@ -247,6 +253,16 @@ pub fn events(m: &OdorEventArray, min_level: f64) -> Result<EventsObs, ArbiterEr
         }
     }
     Ok(EventsObs { rising })
+}
+
+/// Checks a source posterior received at `now`.
+pub fn posterior(now: Nanos, m: &PoseWithCovarianceStamped, frames: &Frames) -> Result<crate::posterior::Posterior, ArbiterError> {
+    let t = Input::SourcePosterior;
+    if !frame_ok(&m.header.frame_id, &frames.odom) {
+        return Err(frame_err(t, &m.header.frame_id, &frames.odom));
+    }
+    let p = &m.pose.pose.position;
+    crate::posterior::Posterior::from_parts(now, p.x, p.y, &m.pose.covariance.0).map_err(|r| ArbiterError::field(t.topic(), r.field, r.reason, "refused"))
 }
 
 /// Checks a scan and returns the nearest valid range in the forward sector [m] (+inf: clear).

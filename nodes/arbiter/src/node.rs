@@ -16,7 +16,9 @@
 //!   watchdogs, stamp orders, wind, contact, declaration evidence and the strategy; the e-stop
 //!   latch and a declaration stay.
 
+use crate::avoid::Avoider;
 use crate::contact::ContactDetector;
+use crate::posterior::Posterior;
 use crate::declare::Declarer;
 use crate::plume_end::PlumeEndTracker;
 use crate::drive::{Cmd, Drive, Motion};
@@ -91,6 +93,10 @@ pub struct Arbiter {
     last_now: Option<Nanos>,
     last_state_pub: Option<Nanos>,
     pub(crate) heading_target: f64,
+    avoid: Avoider,
+    posterior: Option<Posterior>,
+    /// The wanted heading was blocked by an obstacle during the current contact period.
+    blocked_in_contact: bool,
 }
 
 impl Arbiter {
@@ -132,6 +138,9 @@ impl Arbiter {
             last_now: None,
             last_state_pub: None,
             heading_target: f64::NAN,
+            avoid: Avoider::default(),
+            posterior: None,
+            blocked_in_contact: false,
             strategy,
             custom_strategy,
             params,
@@ -202,6 +211,8 @@ impl Arbiter {
             self.watchdog.reset();
             self.stamps.reset();
             self.wind.reset();
+            self.avoid.reset();
+            self.posterior = None;
             self.forget_evidence();
             self.strategy.reset();
             self.last_state_pub = None;
@@ -228,6 +239,7 @@ impl Arbiter {
         self.declarer.reset();
         self.plume_end.reset();
         self.was_in_contact = false;
+        self.blocked_in_contact = false;
     }
 
     fn position(&self) -> Option<Vec2> {
@@ -328,7 +340,36 @@ impl Arbiter {
             bearing: self.bearing_view(odom.pose.yaw),
             contact: self.contact.view(now),
             period: self.params.period(),
+            posterior: self.usable_posterior(now),
         }
+    }
+
+    /// The posterior, if fresh and `cues.use_posterior` is on.
+    fn usable_posterior(&self, now: Nanos) -> Option<Posterior> {
+        self.posterior.filter(|q| self.params.cues.use_posterior && q.fresh(now, &self.params.declare.posterior))
+    }
+
+    /// The strategy's motion, bent around obstacles ([`crate::avoid`]) when a scan is in use.
+    fn avoid_obstacles(&mut self, now: Nanos, motion: Motion, yaw: f64) -> Motion {
+        let Motion::Heading { heading, speed, face } = motion else { return motion };
+        if !(self.params.avoid.enabled && self.scan_seen) || speed <= 0.0 {
+            return motion;
+        }
+        let want = wrap_angle(heading - yaw);
+        match self.avoid.steer(now, want, &self.params.avoid) {
+            Some(body) => Motion::Heading { heading: wrap_angle(yaw + body), speed, face },
+            None => motion,
+        }
+    }
+
+    /// Whether the plume-end estimate may be trusted: not at an obstacle face, unless the
+    /// posterior agrees with it.
+    fn plume_end_trusted(&self, now: Nanos, estimate: Vec2) -> bool {
+        if !self.blocked_in_contact {
+            return true;
+        }
+        let r = self.params.declare.posterior.confirm_radius;
+        self.usable_posterior(now).is_some_and(|q| q.mean.distance(estimate) <= r)
     }
 
     /// One control tick at `now`.
@@ -370,15 +411,23 @@ impl Arbiter {
                 let ctx = self.context(now, &odom);
                 let decision = self.strategy.step(&ctx);
                 let upwind = ctx.wind.upwind.or(ctx.wind.last_upwind);
+                let blocked_recently = self.avoid.blocked_since().is_some_and(|t| now.saturating_sub(t) <= nanos(self.params.avoid.distrust));
+                if ctx.contact.in_contact && blocked_recently {
+                    self.blocked_in_contact = true;
+                }
                 if self.was_in_contact && !ctx.contact.in_contact {
-                    self.plume_end.on_loss(upwind);
+                    self.plume_end.on_loss(upwind, self.blocked_in_contact);
+                    self.blocked_in_contact = false;
                 }
                 self.was_in_contact = ctx.contact.in_contact;
                 let by_features = self.declarer.ready(now).filter(|_| ctx.contact.in_contact).map(|reason| {
                     (self.declarer.estimate(&odom.pose, self.last_bearing_odom, upwind), reason)
                 });
-                let by_plume_end = || self.plume_end.ready().filter(|_| self.params.declare.enabled);
-                if let Some((estimate, reason)) = by_features.or_else(by_plume_end) {
+                let by_plume_end = || self.plume_end.ready().filter(|(e, _)| self.params.declare.enabled && self.plume_end_trusted(now, *e));
+                let by_posterior = || {
+                    ctx.posterior.filter(|_| self.params.declare.enabled).and_then(|q| q.ready(odom.pose.position, ctx.contact.hits, &self.params.declare.posterior))
+                };
+                if let Some((estimate, reason)) = by_features.or_else(by_plume_end).or_else(by_posterior) {
                     self.declared = Some(Declared { at: now, estimate });
                     self.modes.enter(now, Mode::Declared, reason);
                     let p = PointStamped { header: Header::new(now, &self.params.frames.odom), point: Point { x: estimate.x, y: estimate.y, z: 0.0 } };
@@ -394,7 +443,7 @@ impl Arbiter {
                         self.modes.enter(now, mode, reason);
                         changed = true;
                     }
-                    motion = decision.motion;
+                    motion = self.avoid_obstacles(now, decision.motion, odom.pose.yaw);
                 }
             }
         }
@@ -451,6 +500,7 @@ impl NodeCore for Arbiter {
             Port::of::<Bool>("e_stop", Qos::Latched),
             Port::of::<Empty>("e_stop_reset", Qos::Reliable),
             Port::of::<LaserScan>("scan", Qos::SensorData),
+            Port::of::<PoseWithCovarianceStamped>("source_posterior", Qos::Reliable),
         ]
     }
 
@@ -518,7 +568,13 @@ impl NodeCore for Arbiter {
                 self.accept(now, Input::Scan, &m.header.stamp, parsed, |s, d| {
                     s.nearest = Some(d);
                     s.scan_seen = true;
+                    let yaw = s.params.obstacle.scan_yaw;
+                    s.avoid.on_scan(m, yaw, &s.params.avoid);
                 });
+            }
+            (Some(Input::SourcePosterior), Msg::PoseWithCovarianceStamped(m)) => {
+                let parsed = inputs::posterior(now, m, frames);
+                self.accept(now, Input::SourcePosterior, &m.header.stamp, parsed, |s, q| s.posterior = Some(q));
             }
             (Some(Input::EStop), Msg::Bool(b)) => self.on_e_stop(now, b.data, out),
             (Some(Input::EStopReset), Msg::Empty(_)) => self.on_reset(now),

@@ -709,7 +709,9 @@ impl NodeParams for Params {
         non_negative(c.feature_hold, "contact.feature_hold", "s")?;
         non_negative(c.level_enter, "contact.level_enter", "conditioned units")?;
         non_negative(c.level_exit, "contact.level_exit", "conditioned units")?;
-        ordered(c.level_exit, c.level_enter, "contact.level_exit", "contact.level_enter")?;
+        if c.level_enter > 0.0 {
+            ordered(c.level_exit, c.level_enter, "contact.level_exit", "contact.level_enter")?;
+        }
         non_negative(c.level_steady, "contact.level_steady", "s")?;
 
         positive(self.drive.heading_gain, "drive.heading_gain", "1/s")?;

@@ -15,6 +15,10 @@
 //!   metres further upwind (progress: the stall count restarts); a front within `radius` of
 //!   the best that does not advance it is a *stall* and the best front moves to the mean of
 //!   the fronts that stalled on it; any other front (far downwind or aside) changes nothing;
+//! - a period during which the way upwind was blocked by an obstacle ([`crate::avoid`]) is
+//!   dropped: a plume that ends at an obstacle face says where the robot was stopped, not
+//!   where the odor starts (the node lets such an estimate through only when the posterior
+//!   agrees, see [`crate::node`]);
 //! - the source is declared once `min_stalls` stalls have accumulated, at the best front.
 //!
 //! Only event hits place fronts: windowed plume features outlast the plume by their window,
@@ -58,9 +62,13 @@ impl PlumeEndTracker {
 
     /// The contact was lost, the upwind heading being `upwind` [rad, odom] (`None`: unknown,
     /// the period is dropped: without a wind there is no upwind end).
-    pub fn on_loss(&mut self, upwind: Option<f64>) {
+    /// `blocked`: the way upwind was blocked during the period (it is then dropped).
+    pub fn on_loss(&mut self, upwind: Option<f64>, blocked: bool) {
         let points = std::mem::take(&mut self.period);
         let Some(upwind) = upwind else { return };
+        if blocked {
+            return;
+        }
         if points.len() < self.p.min_hits as usize {
             return;
         }
@@ -130,7 +138,7 @@ mod tests {
         for &x in xs {
             t.on_event_hit(Vec2::new(x, y));
         }
-        t.on_loss(Some(WEST));
+        t.on_loss(Some(WEST), false);
     }
 
     fn tracker() -> PlumeEndTracker {
@@ -166,7 +174,7 @@ mod tests {
         assert_eq!((t.stalls(), t.best()), (0, Some(Vec2::new(2.0, 0.0))));
         t.on_event_hit(Vec2::new(0.0, 0.0));
         t.on_event_hit(Vec2::new(0.0, 0.0));
-        t.on_loss(None);
+        t.on_loss(None, false);
         assert_eq!(t.best(), Some(Vec2::new(2.0, 0.0)), "no wind: no upwind end");
         let mut off = t.clone();
         off.set_params(PlumeEndParams { enabled: false, ..PlumeEndParams::default() });
@@ -178,13 +186,28 @@ mod tests {
     }
 
     #[test]
+    fn a_period_blocked_by_an_obstacle_never_counts() {
+        let mut t = tracker();
+        for _ in 0..5 {
+            t.on_event_hit(Vec2::new(4.0, 0.0));
+            t.on_event_hit(Vec2::new(4.1, 0.0));
+            t.on_loss(Some(WEST), true);
+        }
+        assert_eq!((t.best(), t.stalls()), (None, 0), "five ends at an obstacle face: nothing");
+        period(&mut t, &[4.1, 4.0], 0.0);
+        period(&mut t, &[4.1, 4.0], 0.0);
+        period(&mut t, &[4.1, 4.0], 0.0);
+        assert!(t.ready().is_some(), "the same ends, unblocked, declare");
+    }
+
+    #[test]
     fn the_front_is_taken_upwind_at_the_loss() {
         let mut t = tracker();
         // The wind blows toward +y: upwind is -y, so the front is the point with the least y.
         for p in [Vec2::new(0.0, 3.0), Vec2::new(5.0, 1.0), Vec2::new(-2.0, 2.0)] {
             t.on_event_hit(p);
         }
-        t.on_loss(Some(-std::f64::consts::FRAC_PI_2));
+        t.on_loss(Some(-std::f64::consts::FRAC_PI_2), false);
         assert_eq!(t.best(), Some(Vec2::new(5.0, 1.0)));
     }
 
@@ -210,7 +233,7 @@ mod tests {
                 for &(x, y) in points {
                     t.on_event_hit(Vec2::new(x, y));
                 }
-                t.on_loss(Some(*upwind));
+                t.on_loss(Some(*upwind), false);
                 if points.len() < min_hits as usize {
                     proptest::prop_assert_eq!((t.best(), t.stalls()), before);
                 } else {

@@ -99,7 +99,7 @@ mod tests {
 
     #[test]
     fn surge_then_cast_then_give_up_or_return() {
-        for action in [LimitAction::GiveUp, LimitAction::Return] {
+        for action in [LimitAction::GiveUp, LimitAction::Return, LimitAction::Search] {
             let cast = CastParams { max_legs: 2, on_limit: action, ..Default::default() };
             let mut s = CastSurge::new(SurgeParams::default(), cast.clone(), SweepParams::default());
             let pose = Pose2 { position: Vec2::new(2.0, 0.0), yaw: 0.0 };
@@ -129,6 +129,17 @@ mod tests {
                     assert!(last.reason.contains("returning"), "{}", last.reason);
                     let home = s.step(&ctx(10, Pose2::default(), false, 1));
                     assert_eq!(home.phase, Phase::Waiting, "at the anchor: {}", home.reason);
+                }
+                LimitAction::Search => {
+                    assert_eq!(last.phase, Phase::Casting);
+                    assert!(last.reason.contains("sweeping around the last contact"), "{}", last.reason);
+                    // It never ends: a thousand steps later it is still sweeping.
+                    let mut p = Pose2::default();
+                    for k in 0..1000 {
+                        let State::End(Ending::Search(w)) = &s.state else { panic!("searching") };
+                        p.position = w.target();
+                        assert_eq!(s.step(&ctx(20 + k, p, false, 1)).phase, Phase::Casting);
+                    }
                 }
             }
         }

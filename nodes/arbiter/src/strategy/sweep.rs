@@ -20,7 +20,7 @@ use sillage_core::time::nanos;
 use sillage_core::Nanos;
 
 /// The acquisition sweep.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Sweep {
     origin: Vec2,
     leg: u32,
