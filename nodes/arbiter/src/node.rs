@@ -95,8 +95,6 @@ pub struct Arbiter {
     pub(crate) heading_target: f64,
     avoid: Avoider,
     posterior: Option<Posterior>,
-    /// The wanted heading was blocked by an obstacle during the current contact period.
-    blocked_in_contact: bool,
 }
 
 impl Arbiter {
@@ -140,7 +138,6 @@ impl Arbiter {
             heading_target: f64::NAN,
             avoid: Avoider::default(),
             posterior: None,
-            blocked_in_contact: false,
             strategy,
             custom_strategy,
             params,
@@ -239,7 +236,6 @@ impl Arbiter {
         self.declarer.reset();
         self.plume_end.reset();
         self.was_in_contact = false;
-        self.blocked_in_contact = false;
     }
 
     fn position(&self) -> Option<Vec2> {
@@ -362,16 +358,6 @@ impl Arbiter {
         }
     }
 
-    /// Whether the plume-end estimate may be trusted: not at an obstacle face, unless the
-    /// posterior agrees with it.
-    fn plume_end_trusted(&self, now: Nanos, estimate: Vec2) -> bool {
-        if !self.blocked_in_contact {
-            return true;
-        }
-        let r = self.params.declare.posterior.confirm_radius;
-        self.usable_posterior(now).is_some_and(|q| q.mean.distance(estimate) <= r)
-    }
-
     /// One control tick at `now`.
     fn tick(&mut self, now: Nanos, out: &mut Outbox) {
         let stale = self.watchdog.stale(self.required_inputs(), &self.params.watchdog, now);
@@ -411,19 +397,14 @@ impl Arbiter {
                 let ctx = self.context(now, &odom);
                 let decision = self.strategy.step(&ctx);
                 let upwind = ctx.wind.upwind.or(ctx.wind.last_upwind);
-                let blocked_recently = self.avoid.blocked_since().is_some_and(|t| now.saturating_sub(t) <= nanos(self.params.avoid.distrust));
-                if ctx.contact.in_contact && blocked_recently {
-                    self.blocked_in_contact = true;
-                }
                 if self.was_in_contact && !ctx.contact.in_contact {
-                    self.plume_end.on_loss(upwind, self.blocked_in_contact);
-                    self.blocked_in_contact = false;
+                    self.plume_end.on_loss(upwind);
                 }
                 self.was_in_contact = ctx.contact.in_contact;
                 let by_features = self.declarer.ready(now).filter(|_| ctx.contact.in_contact).map(|reason| {
                     (self.declarer.estimate(&odom.pose, self.last_bearing_odom, upwind), reason)
                 });
-                let by_plume_end = || self.plume_end.ready().filter(|(e, _)| self.params.declare.enabled && self.plume_end_trusted(now, *e));
+                let by_plume_end = || self.plume_end.ready().filter(|_| self.params.declare.enabled);
                 let by_posterior = || {
                     ctx.posterior.filter(|_| self.params.declare.enabled).and_then(|q| q.ready(odom.pose.position, ctx.contact.hits, &self.params.declare.posterior))
                 };
@@ -548,7 +529,8 @@ impl NodeCore for Arbiter {
                     s.contact.on_levels(now, levels, at);
                     let hit = s.contact.on_events(now, e, at);
                     if let (true, Some(at)) = (hit, at) {
-                        s.plume_end.on_event_hit(at);
+                        let blocked = s.avoid.blocked_since().is_some_and(|t| now.saturating_sub(t) <= nanos(s.params.avoid.distrust));
+                        s.plume_end.on_event_hit(at, blocked);
                     }
                 });
             }

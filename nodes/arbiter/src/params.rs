@@ -283,14 +283,14 @@ pub struct AvoidParams {
     pub step: f64,
     /// Largest bend from the wanted heading [rad] (<= pi).
     pub max_turn: f64,
-    /// The plume-end rule does not count a plume that ended within this time of the wanted
-    /// heading being blocked [s].
+    /// An odor hit within this time of the wanted heading being blocked is "at an obstacle
+    /// face": a plume whose upwind end is such a hit does not count for the plume-end rule [s].
     pub distrust: f64,
 }
 
 impl Default for AvoidParams {
     fn default() -> Self {
-        AvoidParams { enabled: true, half_width: 0.45, look_ahead: 1.2, step: 0.1745, max_turn: 1.75, distrust: 5.0 }
+        AvoidParams { enabled: true, half_width: 0.45, look_ahead: 1.2, step: 0.1745, max_turn: 1.75, distrust: 1.0 }
     }
 }
 
@@ -391,14 +391,11 @@ pub struct PosteriorDeclareParams {
     pub near: f64,
     /// A posterior older than this is not used [s].
     pub max_age: f64,
-    /// The plume-end rule may declare at an obstacle face only when the posterior mean lies
-    /// within this distance of its estimate [m].
-    pub confirm_radius: f64,
 }
 
 impl Default for PosteriorDeclareParams {
     fn default() -> Self {
-        PosteriorDeclareParams { enabled: true, radius: 0.5, min_mass: 0.8, near: 1.0, max_age: 5.0, confirm_radius: 1.0 }
+        PosteriorDeclareParams { enabled: true, radius: 0.5, min_mass: 0.8, near: 1.0, max_age: 5.0 }
     }
 }
 
@@ -794,7 +791,6 @@ impl NodeParams for Params {
         within(q.min_mass, 0.0, 1.0, "declare.posterior.min_mass")?;
         non_negative(q.near, "declare.posterior.near", "m")?;
         positive(q.max_age, "declare.posterior.max_age", "s")?;
-        non_negative(q.confirm_radius, "declare.posterior.confirm_radius", "m")?;
 
         let g = &self.guard;
         non_negative(g.max_linear, "guard.max_linear", "m/s")?;

@@ -15,10 +15,9 @@
 //!   metres further upwind (progress: the stall count restarts); a front within `radius` of
 //!   the best that does not advance it is a *stall* and the best front moves to the mean of
 //!   the fronts that stalled on it; any other front (far downwind or aside) changes nothing;
-//! - a period during which the way upwind was blocked by an obstacle ([`crate::avoid`]) is
-//!   dropped: a plume that ends at an obstacle face says where the robot was stopped, not
-//!   where the odor starts (the node lets such an estimate through only when the posterior
-//!   agrees, see [`crate::node`]);
+//! - a period whose front hit arrived while the way ahead was blocked by an obstacle
+//!   ([`crate::avoid`]) is dropped: a plume that ends at an obstacle face says where the robot
+//!   was stopped, not where the odor starts;
 //! - the source is declared once `min_stalls` stalls have accumulated, at the best front.
 //!
 //! Only event hits place fronts: windowed plume features outlast the plume by their window,
@@ -35,7 +34,7 @@ const MAX_POINTS: usize = 256;
 #[derive(Debug, Clone)]
 pub struct PlumeEndTracker {
     p: PlumeEndParams,
-    period: VecDeque<Vec2>,
+    period: VecDeque<(Vec2, bool)>,
     best: Option<Vec2>,
     stalled: Vec<Vec2>,
 }
@@ -52,28 +51,28 @@ impl PlumeEndTracker {
         self.reset();
     }
 
-    /// A rising-event hit with the robot at `at` [m, odom].
-    pub fn on_event_hit(&mut self, at: Vec2) {
+    /// A rising-event hit with the robot at `at` [m, odom]; `blocked`: an obstacle blocked
+    /// the way ahead at that moment.
+    pub fn on_event_hit(&mut self, at: Vec2, blocked: bool) {
         if self.period.len() == MAX_POINTS {
             self.period.pop_front();
         }
-        self.period.push_back(at);
+        self.period.push_back((at, blocked));
     }
 
     /// The contact was lost, the upwind heading being `upwind` [rad, odom] (`None`: unknown,
     /// the period is dropped: without a wind there is no upwind end).
-    /// `blocked`: the way upwind was blocked during the period (it is then dropped).
-    pub fn on_loss(&mut self, upwind: Option<f64>, blocked: bool) {
+    pub fn on_loss(&mut self, upwind: Option<f64>) {
         let points = std::mem::take(&mut self.period);
         let Some(upwind) = upwind else { return };
-        if blocked {
-            return;
-        }
         if points.len() < self.p.min_hits as usize {
             return;
         }
         let u = Vec2::from_angle(upwind);
-        let Some(front) = points.into_iter().max_by(|a, b| a.dot(u).total_cmp(&b.dot(u))) else { return };
+        let Some((front, blocked)) = points.into_iter().max_by(|a, b| a.0.dot(u).total_cmp(&b.0.dot(u))) else { return };
+        if blocked {
+            return;
+        }
         let Some(best) = self.best else {
             self.best = Some(front);
             return;
@@ -136,9 +135,9 @@ mod tests {
 
     fn period(t: &mut PlumeEndTracker, xs: &[f64], y: f64) {
         for &x in xs {
-            t.on_event_hit(Vec2::new(x, y));
+            t.on_event_hit(Vec2::new(x, y), false);
         }
-        t.on_loss(Some(WEST), false);
+        t.on_loss(Some(WEST));
     }
 
     fn tracker() -> PlumeEndTracker {
@@ -172,9 +171,9 @@ mod tests {
         period(&mut t, &[6.0, 5.0], 0.0); // re-acquired far downwind: neither progress nor stall
         period(&mut t, &[2.5, 2.1], 1.5); // aside: 1.5 m off the best front
         assert_eq!((t.stalls(), t.best()), (0, Some(Vec2::new(2.0, 0.0))));
-        t.on_event_hit(Vec2::new(0.0, 0.0));
-        t.on_event_hit(Vec2::new(0.0, 0.0));
-        t.on_loss(None, false);
+        t.on_event_hit(Vec2::new(0.0, 0.0), false);
+        t.on_event_hit(Vec2::new(0.0, 0.0), false);
+        t.on_loss(None);
         assert_eq!(t.best(), Some(Vec2::new(2.0, 0.0)), "no wind: no upwind end");
         let mut off = t.clone();
         off.set_params(PlumeEndParams { enabled: false, ..PlumeEndParams::default() });
@@ -189,9 +188,9 @@ mod tests {
     fn a_period_blocked_by_an_obstacle_never_counts() {
         let mut t = tracker();
         for _ in 0..5 {
-            t.on_event_hit(Vec2::new(4.0, 0.0));
-            t.on_event_hit(Vec2::new(4.1, 0.0));
-            t.on_loss(Some(WEST), true);
+            t.on_event_hit(Vec2::new(4.1, 0.0), false);
+            t.on_event_hit(Vec2::new(4.0, 0.0), true);
+            t.on_loss(Some(WEST));
         }
         assert_eq!((t.best(), t.stalls()), (None, 0), "five ends at an obstacle face: nothing");
         period(&mut t, &[4.1, 4.0], 0.0);
@@ -205,9 +204,9 @@ mod tests {
         let mut t = tracker();
         // The wind blows toward +y: upwind is -y, so the front is the point with the least y.
         for p in [Vec2::new(0.0, 3.0), Vec2::new(5.0, 1.0), Vec2::new(-2.0, 2.0)] {
-            t.on_event_hit(p);
+            t.on_event_hit(p, false);
         }
-        t.on_loss(Some(-std::f64::consts::FRAC_PI_2), false);
+        t.on_loss(Some(-std::f64::consts::FRAC_PI_2));
         assert_eq!(t.best(), Some(Vec2::new(5.0, 1.0)));
     }
 
@@ -231,9 +230,9 @@ mod tests {
             for (points, upwind) in &periods {
                 let before = (t.best(), t.stalls());
                 for &(x, y) in points {
-                    t.on_event_hit(Vec2::new(x, y));
+                    t.on_event_hit(Vec2::new(x, y), false);
                 }
-                t.on_loss(Some(*upwind), false);
+                t.on_loss(Some(*upwind));
                 if points.len() < min_hits as usize {
                     proptest::prop_assert_eq!((t.best(), t.stalls()), before);
                 } else {

@@ -117,7 +117,7 @@ mod tests {
     }
 
     #[test]
-    fn ego_motion_is_added_back_and_the_filter_is_first_order() {
+    fn relative_wind_gets_the_robot_velocity_back_and_the_filter_is_first_order() {
         let mut w = WindEstimator::new(WindParams { filter_tau: 1.0, ..Default::default() });
         // Driving forward at 0.5 m/s in still air reads 0.5 m/s toward -x (see the simulator's
         // anemometer contract): corrected, the wind is zero.

@@ -105,7 +105,7 @@ pub fn run(args: Args) -> Result<()> {
     anyhow::ensure!(args.episodes > 0, "--episodes must be at least 1");
     let scenario = Scenario::from_path(&args.scenario)?;
     let sim = Sim {
-        stack: StackSetup { config: StackConfig { params_file: args.params.clone(), ..Default::default() }, strategy: args.strategy.clone() },
+        stack: StackSetup { config: StackConfig { params_file: args.params.clone(), ..Default::default() }, strategy: args.strategy.clone(), ..Default::default() },
         world: WorldParams { scenario: args.scenario.display().to_string(), ..Default::default() },
         options: RunOptions { time_limit: args.time_limit, stop_on_false_declaration: args.stop_on_false_declaration, ..Default::default() },
         scenario,
