@@ -22,6 +22,7 @@ FIXTURES=(
     "tests/refs/bag_make_fixtures.py tests/fixtures/bags/expected.jsonl"
     "tests/refs/bearing_xcorr.py tests/fixtures/bearing/xcorr_cases.json"
     "tests/refs/bearing_planewave.py tests/fixtures/bearing/planewave_cases.json"
+    "tests/refs/wilson_ci.py tests/fixtures/stats/wilson_cases.json"
 )
 
 python="$(bash "$here/venv.sh")"

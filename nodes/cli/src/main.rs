@@ -7,6 +7,7 @@ mod calibrate;
 mod check;
 mod replay;
 mod sim;
+mod sim_table;
 mod truth;
 mod tune;
 
@@ -27,6 +28,8 @@ enum Command {
     Bag(replay::BagCommand),
     /// Closed-loop evaluation against the simulated world.
     Sim(sim::Args),
+    /// The efficacy table: every scenario x strategy x {odor cues on, ablated}, as Markdown.
+    SimTable(sim_table::Args),
     /// Fit the distance model of the plume estimator from labelled recordings.
     Calibrate(calibrate::Args),
     /// Parameter sweeps over scenarios and bags.
@@ -40,6 +43,7 @@ fn main() -> anyhow::Result<()> {
         Command::Replay(a) => replay::run(a),
         Command::Bag(c) => replay::run_bag(c),
         Command::Sim(a) => sim::run(a),
+        Command::SimTable(a) => sim_table::run(a),
         Command::Calibrate(a) => calibrate::run(a),
         Command::Tune(a) => tune::run(a),
         Command::Check(a) => check::run(a),

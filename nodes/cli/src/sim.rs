@@ -2,11 +2,16 @@
 //!
 //! Episode `i` uses world seed `--seed + i` and start pose `i mod (number of start poses)`;
 //! each episode is a pure function of the scenario, the parameters and its seed, so the results
-//! are the same whatever `--jobs`. Writes to the output folder (default `out/sim-<scenario
-//! name>`): `episodes.json` (per-episode metrics), `summary.json` and `summary.txt` (success
-//! rate with its Wilson 95 % interval, quantiles of time and path ratio), `params.yaml` (the
-//! effective parameters of every node: `sillage replay --params` takes it), `plots/`, and with
-//! `--record` a rosbag2 MCAP bag `bag/` of episode 0 that `sillage replay` reads.
+//! are the same whatever `--jobs`, and `--episode K` (with the same `--seed`) reruns episode K
+//! of a batch alone, exactly. Writes to the output folder (default `out/sim-<scenario
+//! name>`): `episodes.json` (per-episode metrics), `summary.json` and `summary.txt` (headline
+//! success = first declaration correct, and correct after resets, with Wilson 95 % intervals;
+//! quantiles of time and path ratio; the odor cues' figures), `params.yaml` (the effective
+//! parameters of every node: `sillage replay --params` takes it), `plots/`, and with
+//! `--record` rosbag2 MCAP bags that `sillage replay` reads: `bag/` for one episode (the first
+//! run, or `--record K`), `bags/episode-K/` for each with `--record all`. The summary lists
+//! every file written. `--ablate-odor-cues` runs the arbiter without the odor direction cues
+//! (`cues.use_bearing` and `cues.use_posterior` false).
 
 #[path = "sim_plots.rs"]
 mod sim_plots;
@@ -20,6 +25,7 @@ use sillage_bag::{BagWriter, QosProfile, WriterOptions};
 use sillage_core::executor::{remap_topic, Placement, Record};
 use sillage_core::{NodeCore, Qos};
 use sillage_sim::{EpisodeResult, EpisodeSpec, RunOptions, Sim, StackSetup, Summary, WorldParams};
+use std::str::FromStr;
 use sillage_stack::StackConfig;
 use sillage_world::Scenario;
 use std::collections::BTreeMap;
@@ -40,6 +46,9 @@ pub struct Args {
     /// Number of episodes.
     #[arg(long, default_value_t = 20)]
     pub episodes: usize,
+    /// Run only episode K of the batch (its world seed and start pose), to reproduce it.
+    #[arg(long, value_name = "K", conflicts_with = "episodes")]
+    pub episode: Option<usize>,
     /// Base seed: episode i uses world seed S + i.
     #[arg(long, default_value_t = 0)]
     pub seed: u64,
@@ -49,9 +58,13 @@ pub struct Args {
     /// Output folder (default: out/sim-<scenario name>).
     #[arg(long)]
     pub out: Option<PathBuf>,
-    /// Record episode 0 as a rosbag2 MCAP bag in OUT/bag.
+    /// Record episodes as rosbag2 MCAP bags: no value, the first episode run (OUT/bag); K,
+    /// episode K (OUT/bag); `all`, every episode (OUT/bags/episode-K).
+    #[arg(long, value_name = "K|all", num_args = 0..=1, default_missing_value = "first")]
+    pub record: Option<RecordSel>,
+    /// Remove the odor direction cues from the arbiter (ablation: wind and contact only).
     #[arg(long)]
-    pub record: bool,
+    pub ablate_odor_cues: bool,
     /// Episode length [s] (default: the scenario's time_limit).
     #[arg(long, value_name = "S")]
     pub time_limit: Option<f64>,
@@ -67,6 +80,46 @@ pub struct Args {
     /// Do not show a progress bar.
     #[arg(long)]
     pub quiet: bool,
+}
+
+/// Which episodes `--record` records.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RecordSel {
+    /// The first episode of the run.
+    First,
+    /// Episode K.
+    Index(usize),
+    /// Every episode.
+    All,
+}
+
+impl FromStr for RecordSel {
+    type Err = String;
+    fn from_str(s: &str) -> Result<Self, String> {
+        match s {
+            "first" => Ok(RecordSel::First),
+            "all" => Ok(RecordSel::All),
+            k => k.parse().map(RecordSel::Index).map_err(|_| format!("expected an episode number or `all`, got `{k}`")),
+        }
+    }
+}
+
+/// The episode indices a run covers: `--episode K` alone, else `0..--episodes`.
+pub fn episode_indices(args: &Args) -> Vec<usize> {
+    match args.episode {
+        Some(k) => vec![k],
+        None => (0..args.episodes).collect(),
+    }
+}
+
+/// Where episode `i` is recorded, if it is.
+fn bag_dir(out: &Path, sel: Option<RecordSel>, first: usize, i: usize) -> Option<PathBuf> {
+    match sel? {
+        RecordSel::First if i == first => Some(out.join("bag")),
+        RecordSel::Index(k) if i == k => Some(out.join("bag")),
+        RecordSel::All => Some(out.join("bags").join(format!("episode-{i}"))),
+        _ => None,
+    }
 }
 
 /// QoS class of every topic of the graph (stack and world), for the recorded bag.
@@ -92,7 +145,7 @@ fn progress_bar(args: &Args) -> Option<indicatif::ProgressBar> {
     if args.quiet {
         return None;
     }
-    let bar = indicatif::ProgressBar::new(args.episodes as u64);
+    let bar = indicatif::ProgressBar::new(episode_indices(args).len() as u64);
     let style = indicatif::ProgressStyle::with_template("{spinner} sim [{bar:40}] {pos}/{len} episodes, {elapsed} elapsed, eta {eta}")
         .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar());
     bar.set_style(style.progress_chars("=> "));
@@ -103,9 +156,18 @@ fn progress_bar(args: &Args) -> Option<indicatif::ProgressBar> {
 pub fn run(args: Args) -> Result<()> {
     let started = Instant::now();
     anyhow::ensure!(args.episodes > 0, "--episodes must be at least 1");
+    anyhow::ensure!(args.jobs != Some(0), "--jobs must be at least 1 (0 would run nothing); leave it out to use every core");
+    let indices = episode_indices(&args);
+    if let Some(RecordSel::Index(k)) = args.record {
+        anyhow::ensure!(indices.contains(&k), "--record {k}: episode {k} is not run (this run covers episodes {}..{})", indices[0], indices[indices.len() - 1]);
+    }
     let scenario = Scenario::from_path(&args.scenario)?;
     let sim = Sim {
-        stack: StackSetup { config: StackConfig { params_file: args.params.clone(), ..Default::default() }, strategy: args.strategy.clone(), ..Default::default() },
+        stack: StackSetup {
+            config: StackConfig { params_file: args.params.clone(), ..Default::default() },
+            strategy: args.strategy.clone(),
+            ablate_odor_cues: args.ablate_odor_cues,
+        },
         world: WorldParams { scenario: args.scenario.display().to_string(), ..Default::default() },
         options: RunOptions { time_limit: args.time_limit, stop_on_false_declaration: args.stop_on_false_declaration, ..Default::default() },
         scenario,
@@ -118,7 +180,7 @@ pub fn run(args: Args) -> Result<()> {
 
     // Build once up front: a bad parameter file or strategy fails here, before any episode.
     let built = sim.build_stack()?;
-    let first = EpisodeSpec::nth(&sim.scenario, args.seed, 0);
+    let first = EpisodeSpec::nth(&sim.scenario, args.seed, indices[0]);
     let world0 = sim.world_node(&first, built.cmd_vel_type)?;
     let qos = topic_qos(&sim, &built, &world0);
     let world_section = sillage_core::params::to_value(world0.params());
@@ -127,18 +189,17 @@ pub fn run(args: Args) -> Result<()> {
     std::fs::write(&params_path, &params_text).with_context(|| format!("writing {}", params_path.display()))?;
     drop(built);
 
-    let jobs = args.jobs.unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get())).max(1);
+    let jobs = args.jobs.unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
     let pool = rayon::ThreadPoolBuilder::new().num_threads(jobs).build()?;
     let bar = progress_bar(&args);
-    let bag_dir = out_dir.join("bag");
-    let record = args.record;
     let (results, map) = pool.install(|| {
         rayon::join(
             || {
-                (0..args.episodes)
-                    .into_par_iter()
-                    .map(|i| {
-                        let r = run_one(&sim, &args, i, record.then_some((&bag_dir, &qos)));
+                indices
+                    .par_iter()
+                    .map(|&i| {
+                        let bag = bag_dir(&out_dir, args.record, indices[0], i);
+                        let r = run_one(&sim, &args, i, i == indices[0], bag.as_deref().map(|d| (d, &qos)));
                         if let Some(b) = &bar {
                             b.inc(1);
                         }
@@ -167,26 +228,29 @@ pub fn run(args: Args) -> Result<()> {
             Err(e) => eprintln!("warning: plots not drawn: {e}"),
         }
     }
+    outputs.extend(sim_report::Report::file_names().iter().map(|f| out_dir.join(f).display().to_string()));
     let report = sim_report::Report::new(&sim, &args, jobs, wall, &summary, outputs);
-    let paths = report.write(&out_dir, &episodes)?;
+    report.write(&out_dir, &episodes)?;
     print!("{}", report.text());
-    println!("report: {} (and {})", paths.0.display(), paths.1.display());
     Ok(())
 }
 
-/// Episode `i`; episode 0 keeps a timeline for the plots and, with `record`, writes the bag.
-fn run_one(sim: &Sim, args: &Args, i: usize, record: Option<(&PathBuf, &BTreeMap<String, Qos>)>) -> Result<(EpisodeResult, Option<String>)> {
+/// Episode `i`; the first of the run keeps a timeline for the plots; with `record`, the bag
+/// is written.
+fn run_one(sim: &Sim, args: &Args, i: usize, first: bool, record: Option<(&Path, &BTreeMap<String, Qos>)>) -> Result<(EpisodeResult, Option<String>)> {
     let spec = EpisodeSpec::nth(&sim.scenario, args.seed, i);
-    if i != 0 {
-        return Ok((sim.run_episode(spec, &mut |_| {})?, None));
+    let mut sim = sim.clone();
+    if first {
+        sim.options.timeline_period = Some(0.1);
     }
-    let mut first = sim.clone();
-    first.options.timeline_period = Some(0.1);
-    let Some((dir, qos)) = record else { return Ok((first.run_episode(spec, &mut |_| {})?, None)) };
-    record_episode(&first, spec, dir, qos)
+    let Some((dir, qos)) = record else { return Ok((sim.run_episode(spec, &mut |_| {})?, None)) };
+    record_episode(&sim, spec, dir, qos)
 }
 
 fn record_episode(sim: &Sim, spec: EpisodeSpec, dir: &Path, qos: &BTreeMap<String, Qos>) -> Result<(EpisodeResult, Option<String>)> {
+    if let Some(parent) = dir.parent() {
+        std::fs::create_dir_all(parent).with_context(|| format!("creating {}", parent.display()))?;
+    }
     let mut writer = BagWriter::create(dir, WriterOptions { overwrite: true, ..Default::default() })?;
     let mut error = None;
     let result = sim.run_episode(spec, &mut |r: &Record| {
@@ -201,5 +265,5 @@ fn record_episode(sim: &Sim, spec: EpisodeSpec, dir: &Path, qos: &BTreeMap<Strin
         return Err(e.into());
     }
     let s = writer.finish()?;
-    Ok((result, Some(format!("{} ({} messages, episode 0)", s.dir.display(), s.metadata.message_count))))
+    Ok((result, Some(format!("{} ({} messages, episode {})", s.dir.display(), s.metadata.message_count, spec.index))))
 }

@@ -1,11 +1,14 @@
 //! `sillage sim` plots (SVG or PNG through `plotters`): every episode's trajectory over the
 //! mean concentration map, the first episode's concentration, resistance, distance and mode
-//! timelines, and histograms of outcomes and of the time to declare.
+//! timelines with its odor cues' errors over time (bearing minus the true source and upwind
+//! directions, robot frame; ln of the distance estimate over the true distance), and
+//! histograms of outcomes and of the time to declare.
 
 use anyhow::{anyhow, Result};
 use plotters::coord::Shift;
 use plotters::prelude::*;
 use sillage_sim::metrics::mode_name;
+use sillage_sim::summary::outcome_name;
 use sillage_sim::EpisodeResult;
 use sillage_world::{GridSpec, Scenario, World};
 use std::path::{Path, PathBuf};
@@ -112,7 +115,8 @@ fn trajectories<DB: DrawingBackend>(area: &Area<DB>, s: &Scenario, eps: &[Episod
 }
 
 fn timeline<DB: DrawingBackend>(area: &Area<DB>, r: &EpisodeResult) -> Result<()> {
-    let parts = area.split_evenly((4, 1));
+    let parts = area.split_evenly((6, 1));
+    let ep = format!("episode {}", r.spec.index);
     let Some(tl) = &r.timeline else {
         return Ok(());
     };
@@ -136,10 +140,11 @@ fn timeline<DB: DrawingBackend>(area: &Area<DB>, r: &EpisodeResult) -> Result<()
         Ok(())
     };
     let nch = tl.channels.len();
-    draw(&parts[0], "episode 0: true concentration at the sensors", "log10 [g/m^3]", true, &|i, k| tl.concentration[i].get(k).copied().unwrap_or(f64::NAN), nch)?;
-    draw(&parts[1], "episode 0: published sensor resistance (chem)", "resistance [ohm]", false, &|i, k| tl.resistance[i].get(k).copied().unwrap_or(f64::NAN), nch)?;
-    draw(&parts[2], "episode 0: distance to the source", "distance [m]", false, &|i, _| tl.distance[i], 1)?;
-    let mut chart = ChartBuilder::on(&parts[3]).caption("episode 0: search mode", ("sans-serif", 15)).margin(6).x_label_area_size(28).y_label_area_size(90).build_cartesian_2d(0.0..span, -0.5..4.5).map_err(e)?;
+    draw(&parts[0], &format!("{ep}: true concentration at the sensors"), "log10 [g/m^3]", true, &|i, k| tl.concentration[i].get(k).copied().unwrap_or(f64::NAN), nch)?;
+    draw(&parts[1], &format!("{ep}: published sensor resistance (chem)"), "resistance [ohm]", false, &|i, k| tl.resistance[i].get(k).copied().unwrap_or(f64::NAN), nch)?;
+    draw(&parts[2], &format!("{ep}: distance to the source"), "distance [m]", false, &|i, _| tl.distance[i], 1)?;
+    cue_errors(&parts[4], &parts[5], &ep, span, tl)?;
+    let mut chart = ChartBuilder::on(&parts[3]).caption(format!("{ep}: search mode"), ("sans-serif", 15)).margin(6).x_label_area_size(28).y_label_area_size(90).build_cartesian_2d(0.0..span, -0.5..4.5).map_err(e)?;
     chart
         .configure_mesh()
         .x_desc("time [s]")
@@ -152,13 +157,39 @@ fn timeline<DB: DrawingBackend>(area: &Area<DB>, r: &EpisodeResult) -> Result<()
     Ok(())
 }
 
+/// The cue errors over time: bearing errors as dots (no lines across the +-180 deg wrap),
+/// in-plume samples shaded; the distance estimate's log ratio.
+fn cue_errors<DB: DrawingBackend>(bearing: &Area<DB>, distance: &Area<DB>, ep: &str, span: f64, tl: &sillage_sim::Timeline) -> Result<()> {
+    let title = format!("{ep}: published odor_bearing minus the truth (base_link; shaded: in plume)");
+    let mut chart = ChartBuilder::on(bearing).caption(title, ("sans-serif", 15)).margin(6).x_label_area_size(28).y_label_area_size(64).build_cartesian_2d(0.0..span, -180.0..180.0).map_err(e)?;
+    chart.configure_mesh().x_desc("time [s]").y_desc("error [deg]").y_labels(7).draw().map_err(e)?;
+    let dt = tl.t.windows(2).next().map_or(0.1, |w| w[1] - w[0]);
+    chart
+        .draw_series(tl.t.iter().zip(&tl.in_plume).filter(|(_, p)| **p).map(|(t, _)| Rectangle::new([(t - dt, -180.0), (*t, 180.0)], RGBColor(230, 230, 230).filled())))
+        .map_err(e)?;
+    for (values, color, name) in [(&tl.bearing_error_source, BLUE, "vs source direction"), (&tl.bearing_error_upwind, ORANGE, "vs upwind direction")] {
+        let pts = tl.t.iter().zip(values.iter()).filter(|(_, v)| v.is_finite()).map(|(t, v)| Circle::new((*t, v.to_degrees()), 1, color.filled()));
+        chart.draw_series(pts).map_err(e)?.label(name).legend(move |(x, y)| Circle::new((x + 7, y), 3, color.filled()));
+    }
+    chart.configure_series_labels().position(SeriesLabelPosition::UpperRight).background_style(WHITE.mix(0.8)).border_style(BLACK).draw().map_err(e)?;
+    let pts: Vec<(f64, f64)> = tl.t.iter().zip(&tl.distance_log_ratio).filter(|(_, v)| v.is_finite()).map(|(t, v)| (*t, *v)).collect();
+    let top = pts.iter().fold(1.0f64, |m, p| m.max(p.1.abs())).min(5.0);
+    let mut chart = ChartBuilder::on(distance)
+        .caption(format!("{ep}: distance estimate (plume_features) against the true distance"), ("sans-serif", 15))
+        .margin(6)
+        .x_label_area_size(28)
+        .y_label_area_size(64)
+        .build_cartesian_2d(0.0..span, -top..top)
+        .map_err(e)?;
+    chart.configure_mesh().x_desc("time [s]").y_desc("ln(estimate / true)").draw().map_err(e)?;
+    chart.draw_series(pts.into_iter().map(|(t, v)| Circle::new((t, v.clamp(-top, top)), 1, GREEN_.filled()))).map_err(e)?;
+    Ok(())
+}
+
 fn histograms<DB: DrawingBackend>(area: &Area<DB>, s: &Scenario, eps: &[EpisodeResult]) -> Result<()> {
     let parts = area.split_evenly((1, 2));
-    let names = ["success", "false_declaration", "time_limit", "stalled"];
-    let counts: Vec<u32> = names
-        .iter()
-        .map(|n| eps.iter().filter(|r| serde_json::to_value(r.outcome).ok().and_then(|v| v.as_str().map(|x| x == *n)).unwrap_or(false)).count() as u32)
-        .collect();
+    let names = ["success", "correct_after_reset", "false_declaration", "time_limit", "stalled"];
+    let counts: Vec<u32> = names.iter().map(|n| eps.iter().filter(|r| outcome_name(r.outcome) == *n).count() as u32).collect();
     let top = counts.iter().copied().max().unwrap_or(1).max(1);
     let mut chart = ChartBuilder::on(&parts[0])
         .caption("episode outcomes", ("sans-serif", 16))
@@ -203,7 +234,7 @@ fn draw<DB: DrawingBackend>(name: &str, area: Area<DB>, s: &Scenario, eps: &[Epi
     area.fill(&WHITE).map_err(e)?;
     match name {
         "trajectories" => trajectories(&area, s, eps, map)?,
-        "episode0" => {
+        n if n.starts_with("episode") => {
             if let Some(r) = eps.first() {
                 timeline(&area, r)?;
             }
@@ -221,7 +252,8 @@ pub fn write(dir: &Path, format: Format, s: &Scenario, eps: &[EpisodeResult], ma
     let aspect = (a.max[1] - a.min[1]) / (a.max[0] - a.min[0]).max(1e-9);
     let traj_size = (1000, ((1000.0 * aspect) as u32 + 60).clamp(300, 1400));
     let mut out = Vec::new();
-    for (name, size) in [("trajectories", traj_size), ("episode0", (1200, 1000)), ("histograms", (1200, 450))] {
+    let first = format!("episode{}", eps.first().map_or(0, |r| r.spec.index));
+    for (name, size) in [("trajectories", traj_size), (first.as_str(), (1200, 1500)), ("histograms", (1200, 450))] {
         let path = dir.join(format!("{name}.{}", match format { Format::Svg => "svg", Format::Png => "png" }));
         match format {
             Format::Svg => draw(name, SVGBackend::new(&path, size).into_drawing_area(), s, eps, map)?,

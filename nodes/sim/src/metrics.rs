@@ -6,6 +6,16 @@
 //! - a *declaration* is one `source_estimate`; it is *correct* when the estimate (not the
 //!   robot position) lies within the scenario's `success_radius` of the nearest true source
 //!   (planar distance);
+//! - *success* (the headline) is a correct **first** declaration: no operator reset before
+//!   it. *Correct after resets* (secondary) is any correct declaration, also one that follows
+//!   false declarations the runner reset as an all-knowing operator would;
+//! - *time in mode*: the time between a `search_state` entering a mode and the next one
+//!   entering another (the last mode until the episode end), summed per mode;
+//! - *first contact*: the first in-plume sample of the world's truth; *contact to
+//!   declaration*: from it to the first declaration (correct or not), when both happen in
+//!   that order;
+//! - the odor cues' figures (in-plume coverage per cue, bearing errors against the true source
+//!   and upwind directions, distance error) are defined in [`crate::cues`];
 //! - a *halt* is an entry into HALTED; those before the first non-HALTED mode are start-up
 //!   halts (inputs not received yet) and counted apart; reasons are kept without their numbers
 //!   (`watchdog: odor_bearing stale`), each with its count.

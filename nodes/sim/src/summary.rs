@@ -256,6 +256,22 @@ mod tests {
         assert_abs_diff_eq!(hi, Z95 * Z95 / (50.0 + Z95 * Z95), epsilon = 1e-15);
     }
 
+    /// scipy 1.17.1 `binomtest(k, n).proportion_ci(confidence_level=0.95, method="wilson")`
+    /// for n = 1, 10, 20, 50 (every k) and a few large n (tests/refs/wilson_ci.py).
+    #[test]
+    fn wilson_matches_scipy() {
+        let text = include_str!("../../../tests/fixtures/stats/wilson_cases.json");
+        let cases: Vec<serde_json::Value> = serde_json::from_str(text).expect("fixture");
+        assert!(cases.len() > 80);
+        for c in &cases {
+            let get = |k: &str| c[k].as_f64().expect("number");
+            let (k, n) = (get("k") as usize, get("n") as usize);
+            let (lo, hi) = wilson(k, n, Z95);
+            assert_abs_diff_eq!(lo, get("low"), epsilon = 1e-12);
+            assert_abs_diff_eq!(hi, get("high"), epsilon = 1e-12);
+        }
+    }
+
     /// numpy 2.x `np.quantile([3, 1, 4, 1, 5, 9, 2, 6], [0.1, 0.25, 0.5, 0.75, 0.9])`
     /// (linear method) = [1.0, 1.75, 3.5, 5.25, 6.9] (run by hand).
     #[test]
