@@ -2,14 +2,13 @@
 //! direction the cues need.
 //!
 //! Conventions: the wind vector points where the air goes to [m/s]; everything is returned in
-//! `base_link` (REP 103). A wind sensor on a moving robot measures the *apparent* wind:
-//! `apparent = true wind - v_sensor`, with `v_sensor = v + omega x r_anemometer` the velocity
-//! of the anemometer from odometry (`twist` in the odometry's child frame, taken as
-//! base_link). So with `wind.apparent = true` and fresh odometry the true wind is
-//! `apparent + v_sensor`; without fresh odometry the measurement is used as it is. A wind
-//! message in the odometry's parent frame (e.g. `odom`) is a ground-fixed true wind and is
-//! rotated into base_link with the odometry's yaw. Between wind messages the stored true wind
-//! is turned with the robot's yaw change.
+//! `base_link` (REP 103). Relative and true wind, the lever arm and still air mean what
+//! [`sillage_air`] says: a base-frame message is the relative wind at the moving anemometer
+//! when `wind.relative` is true (true wind = relative + `v + omega x r_anemometer` from fresh
+//! odometry; without fresh odometry the reading is used as it is); a message in the
+//! odometry's parent frame (e.g. `odom`) is a ground-fixed true wind and is rotated into
+//! base_link with the odometry's yaw. Between wind messages the stored true wind is turned
+//! with the robot's yaw change.
 //!
 //! A measurement is valid for `wind.timeout`. A non-finite one makes the wind unusable for
 //! that time (a broken anemometer must not be replaced by the configured speed); a speed below
@@ -19,6 +18,7 @@
 use crate::geometry::{angle, Vec2};
 use crate::warnings::InputWarning;
 use nalgebra::Rotation2;
+use sillage_air::{AirParams, Motion};
 use sillage_core::msg::{Odometry, Vector3Stamped};
 use sillage_core::Nanos;
 
@@ -27,16 +27,12 @@ use sillage_core::Nanos;
 pub struct AirSettings {
     /// The robot's base frame (wind in this frame or in `""` is base-fixed).
     pub base_frame: String,
-    /// Whether a base-fixed wind is apparent (measured on the robot) and needs compensation.
-    pub apparent: bool,
-    /// Anemometer position in base_link [m].
-    pub anemometer: Vec2,
+    /// Relative vs true wind, lever arm and still-air speed (shared meaning).
+    pub air: AirParams,
     /// How long a wind message is valid [ns].
     pub wind_timeout: Nanos,
     /// How long an odometry message is valid [ns].
     pub odom_timeout: Nanos,
-    /// Below this true wind speed the air counts as still [m/s].
-    pub min_speed: f64,
     /// Air speed when no wind is measured [m/s]; 0 = none.
     pub air_speed: f64,
 }
@@ -109,6 +105,12 @@ impl Air {
         self.odom.as_ref().filter(|o| now - o.t <= self.settings.odom_timeout)
     }
 
+    /// The robot's heading [rad, odometry frame] from the latest odometry, fresh or not (a
+    /// heading ages slowly; the onsets are only compared with each other by it).
+    pub fn yaw(&self) -> Option<f64> {
+        self.odom.map(|o| o.yaw)
+    }
+
     /// Takes an odometry message received at `now` [ns].
     pub fn on_odom(&mut self, now: Nanos, m: &Odometry) -> Result<(), InputWarning> {
         let lin = &m.twist.twist.linear;
@@ -135,14 +137,9 @@ impl Air {
         let frame = m.header.frame_id.as_str();
         let odom = self.fresh_odom(now).copied();
         let (true_wind, compensated) = if frame.is_empty() || frame == self.settings.base_frame {
-            match odom {
-                Some(o) if self.settings.apparent => {
-                    let r = self.settings.anemometer;
-                    let v_sensor = o.velocity + Vec2::new(-o.omega * r.y, o.omega * r.x);
-                    (w + v_sensor, true)
-                }
-                _ => (w, false),
-            }
+            let motion = odom.map(|o| Motion { velocity: [o.velocity.x, o.velocity.y], omega: o.omega });
+            let t = self.settings.air.true_wind_base([w.x, w.y], motion.as_ref()).map_err(|_| InputWarning::NonFiniteWind { stamp })?;
+            (Vec2::new(t.base[0], t.base[1]), t.compensated)
         } else if frame == self.odom_frame && odom.is_some() {
             let yaw = odom.map_or(0.0, |o| o.yaw);
             (Rotation2::new(-yaw) * w, true)
@@ -151,7 +148,7 @@ impl Air {
         };
         self.wind = Some(WindState::Valid { t: now, true_wind, yaw: odom.map(|o| o.yaw), compensated });
         let speed = true_wind.norm();
-        if speed < self.settings.min_speed {
+        if self.settings.air.is_still(speed) {
             return Err(InputWarning::StillAir { stamp, speed });
         }
         Ok(())
@@ -171,7 +168,7 @@ impl Air {
                 };
                 let w = Rotation2::new(turn) * true_wind;
                 ctx.compensated = compensated;
-                if w.norm() < self.settings.min_speed {
+                if self.settings.air.is_still(w.norm()) {
                     ctx.source = SpeedSource::StillAir;
                 } else {
                     ctx.speed = Some(w.norm());
@@ -200,11 +197,9 @@ mod tests {
     fn settings() -> AirSettings {
         AirSettings {
             base_frame: "base_link".into(),
-            apparent: true,
-            anemometer: Vec2::zeros(),
+            air: AirParams { min_speed: 0.05, ..AirParams::default() },
             wind_timeout: 1000 * MS,
             odom_timeout: 500 * MS,
-            min_speed: 0.05,
             air_speed: 0.5,
         }
     }
@@ -240,7 +235,7 @@ mod tests {
     fn rotation_at_an_offset_anemometer_and_odom_frame_wind() {
         // Turning in place at 1 rad/s with the anemometer 0.2 m ahead: it moves at +0.2 m/s in y.
         let mut s = settings();
-        s.anemometer = Vec2::new(0.2, 0.0);
+        s.air.anemometer_x = 0.2;
         let mut air = Air::new(s);
         air.on_odom(0, &odom(0.0, 0.0, 1.0, 0.0)).expect("valid");
         air.on_wind(0, &wind(-0.5, -0.2, "")).expect("valid");

@@ -6,7 +6,9 @@
 //! average with time constant `tau`. The normalised contrast is the least-squares gradient of
 //! the responses over the sensor positions times the array's rms radius, divided by the mean
 //! response: for two sensors `(r_a - r_b) / (r_a + r_b)` along the pair axis (from `b` to
-//! `a`), in -1..1.
+//! `a`), in -1..1. Gain matching: each sensor's response is multiplied by its
+//! `amplitude.gains` entry first (sensitivities from a calibration: a sensor twice as
+//! sensitive gets 0.5), so unequal sensors do not fake a contrast.
 //!
 //! Bearing: for two sensors the contrast divided by `saturation` (clamped to -1..1) is taken as
 //! the component of the arrival direction along the pair axis, and front/back is settled with
@@ -19,6 +21,13 @@
 //! averaging time) x `unresolved_scale` if front/back is a guess (x `min(|contrast| /
 //! saturation, 1)` for three or more sensors, where a flat field has no direction). A mean
 //! response below `min_response`, or no sample for `timeout`, gives no cue.
+//!
+//! Side only: for two sensors the contrast says reliably which side (left/right of the pair
+//! axis) has more odor, but its angle is uncalibrated and points at the plume's centre rather
+//! than along the air. When the wind is known and the angle lies more than `max_off_wind` from
+//! upwind, the cue is *side only*: the bearing lies exactly along the pair axis toward the
+//! stronger sensor (for a left/right pair +pi/2 = left, -pi/2 = right), confidence = `weight` x strength x stability x `min(|contrast| /
+//! saturation, 1)` (how clearly one side dominates). It is not fused with the timing cue.
 
 use crate::front_back::{resolve, Resolution};
 use crate::geometry::{angle, Layout, SensorArray, Vec2};
@@ -41,6 +50,8 @@ pub struct AmplitudeCue {
     pub response: f64,
     /// How the mirror candidate was settled.
     pub resolution: Resolution,
+    /// Only the side is meant: `bearing` points along the pair axis to the stronger sensor.
+    pub side_only: bool,
 }
 
 /// Why the amplitude cue has nothing to say.
@@ -115,21 +126,24 @@ impl Amplitude {
         1.0 - (-(dt.max(0) as f64 * 1e-9) / self.settings.tau).exp()
     }
 
-    /// Conditions and smooths one raw value of sensor `sensor` taken at `t` [ns].
-    pub fn on_value(&mut self, sensor: usize, t: Nanos, raw: f64, quantity: u8) -> Result<(), SampleFault> {
+    /// Conditions and smooths one raw value of sensor `sensor` taken at `t` [ns]; returns the
+    /// conditioned value (before negative responses are zeroed), `None` for an unknown sensor.
+    pub fn on_value(&mut self, sensor: usize, t: Nanos, raw: f64, quantity: u8) -> Result<Option<f64>, SampleFault> {
         let alpha = match self.sensors.get(sensor) {
             Some(s) => self.alpha(t - s.t),
-            None => return Ok(()),
+            None => return Ok(None),
         };
-        let Some(s) = self.sensors.get_mut(sensor) else { return Ok(()) };
-        let r = s.conditioner.step(t, raw, quantity)?.max(0.0);
+        let gain = self.settings.gains.get(sensor).copied().unwrap_or(1.0);
+        let Some(s) = self.sensors.get_mut(sensor) else { return Ok(None) };
+        let conditioned = s.conditioner.step(t, raw, quantity)?;
+        let r = (gain * conditioned).max(0.0);
         s.smooth = Some(match s.smooth {
             Some(m) => m + alpha * (r - m),
             None => r,
         });
         s.last = r;
         s.t = t;
-        Ok(())
+        Ok(Some(conditioned))
     }
 
     /// Closes one chem sample at `t` [ns]: updates the contrast statistics from the latest
@@ -193,7 +207,17 @@ impl Amplitude {
             }
         };
         let confidence = (st.weight * strength * stability * shape).clamp(0.0, 1.0);
-        Ok(AmplitudeCue { bearing, confidence, contrast, response, resolution })
+        if self.layout == Layout::Pair {
+            let along = contrast.dot(&self.axis);
+            let off_wind = upwind.is_some_and(|u| crate::geometry::angle_diff(bearing, u).abs() > st.max_off_wind);
+            if off_wind && along != 0.0 {
+                let side = if along > 0.0 { self.axis } else { -self.axis };
+                let clarity = (along.abs() / st.saturation).min(1.0);
+                let confidence = (st.weight * strength * stability * clarity).clamp(0.0, 1.0);
+                return Ok(AmplitudeCue { bearing: angle(&side), confidence, contrast, response, resolution, side_only: true });
+            }
+        }
+        Ok(AmplitudeCue { bearing, confidence, contrast, response, resolution, side_only: false })
     }
 }
 
@@ -217,9 +241,38 @@ mod tests {
             saturation: 0.5,
             contrast_spread: 0.2,
             weight: 1.0,
+            gains: vec![1.0, 1.0],
+            max_off_wind: std::f64::consts::PI,
             timeout: 1.0,
             conditioning,
         }
+    }
+
+    #[test]
+    fn gains_match_sensors_and_off_wind_angles_say_only_the_side() {
+        // Left twice as sensitive as right, same exposure: without matching a contrast of 1/3
+        // appears; with gains [0.5, 1.0] none (ahead, 0 deg, within any max_off_wind).
+        let mut st = settings();
+        let mut plain = Amplitude::new(&st, &FrontBackParams::default(), &pair());
+        let t = feed(&mut plain, 20, &[0.4, 0.2]);
+        let c = plain.cue(t, Some(0.0)).expect("cue");
+        assert!((c.contrast.y - 1.0 / 3.0).abs() < 1e-9 && !c.side_only, "{:?}", c.contrast);
+        st.gains = vec![0.5, 1.0];
+        let mut matched = Amplitude::new(&st, &FrontBackParams::default(), &pair());
+        let t = feed(&mut matched, 20, &[0.4, 0.2]);
+        let c = matched.cue(t, Some(0.0)).expect("cue");
+        assert!(c.contrast.norm() < 1e-9 && c.bearing.abs() < 1e-9, "{:?}", c);
+        // Unmatched, with max_off_wind 20 deg: the angle (about 42 deg) is off the upwind
+        // direction (0), so only the side is said: left, +90 deg.
+        st.gains = vec![1.0, 1.0];
+        st.max_off_wind = 20.0 * DEG;
+        let mut side = Amplitude::new(&st, &FrontBackParams::default(), &pair());
+        let t = feed(&mut side, 20, &[0.4, 0.2]);
+        let c = side.cue(t, Some(0.0)).expect("cue");
+        assert!(c.side_only && (c.bearing - 90.0 * DEG).abs() < 1e-12, "{:?}", c);
+        assert!((c.confidence - c.response / (c.response + st.response_half) * (1.0 / 3.0) / 0.5).abs() < 1e-6, "{:?}", c);
+        // Without a wind direction the angle cannot be judged: no side-only answer.
+        assert!(!side.cue(t, None).expect("cue").side_only);
     }
 
     fn new(array: &SensorArray) -> Amplitude {

@@ -32,6 +32,7 @@ pub mod node;
 pub mod onsets;
 pub mod params;
 pub mod plane_wave;
+pub mod rises;
 pub mod timing;
 pub mod warnings;
 

@@ -3,8 +3,10 @@
 //!
 //! Every timer tick publishes the current estimate (`cue = NONE` with NaN bearing and lag when
 //! there is nothing to say); with `publish_on_evidence` an odor event array that brings a new
-//! onset publishes one at once as well. Estimates are computed from the onsets of the last
-//! `timing.window` seconds, the latest wind and odometry, and the smoothed chem responses.
+//! onset publishes one at once as well (with `timing.onsets: rise`, a chem sample that confirms
+//! a rise does). Estimates are computed from the onsets of the last onset window
+//! ([`Params::window`]) taken within `timing.max_turn` of the current heading, the latest wind
+//! and odometry, and the smoothed chem responses.
 
 use crate::air::{Air, AirContext};
 use crate::amplitude::{Amplitude, AmplitudeCue, AmplitudeSilence};
@@ -12,13 +14,14 @@ use crate::channels::{ChannelMap, Lookup};
 use crate::fusion::{fuse, Fused, Vote};
 use crate::geometry::SensorArray;
 use crate::onsets::{OnsetTrain, Push};
-use crate::params::Params;
+use crate::params::{OnsetSource, Params};
+use crate::rises::RiseDetector;
 use crate::timing::{TimingCue, TimingDecoder, TimingSilence};
 use crate::warnings::{InputWarning, WarningLog};
 use crate::NODE_NAME;
 use sillage_core::msg::*;
 use sillage_core::params::{self, NodeParams, ParamError};
-use sillage_core::time::nanos;
+use sillage_core::time::{nanos, secs};
 use sillage_core::{Msg, Nanos, NodeCore, Outbox, Port, Qos};
 
 /// Input indices.
@@ -71,8 +74,12 @@ pub struct BearingDecoder {
     array: SensorArray,
     channels: ChannelMap,
     trains: Vec<OnsetTrain>,
+    selected: Vec<OnsetTrain>,
+    rises: Vec<RiseDetector>,
     air: Air,
     timing: TimingDecoder,
+    /// The last fresh timing cue: when, its bearing in the odometry frame [rad], the cue.
+    held: Option<(Nanos, f64, TimingCue)>,
     amplitude: Amplitude,
     chem_seen: bool,
     warnings: WarningLog,
@@ -89,8 +96,11 @@ impl BearingDecoder {
         Ok(BearingDecoder {
             channels: ChannelMap::new(&params.channel_names, &array),
             trains: (0..array.len()).map(|_| OnsetTrain::new(capacity)).collect(),
+            selected: (0..array.len()).map(|_| OnsetTrain::new(capacity)).collect(),
+            rises: (0..array.len()).map(|i| RiseDetector::new(params.rise_settings(i))).collect(),
             air: Air::new(params.air_settings()),
             timing: TimingDecoder::new(params.timing_settings()),
+            held: None,
             amplitude: Amplitude::new(&params.amplitude, &params.front_back, &array),
             chem_seen: false,
             warnings: WarningLog::default(),
@@ -137,23 +147,49 @@ impl BearingDecoder {
 
     /// Computes the estimate at `now` [ns] from the current state (prunes the onset window).
     pub fn estimate(&mut self, now: Nanos) -> Estimate {
-        let start = now.saturating_sub(nanos(self.params.timing.window));
-        for t in &mut self.trains {
+        let start = now.saturating_sub(nanos(self.params.window()));
+        let yaw = self.air.yaw();
+        for (t, sel) in self.trains.iter_mut().zip(&mut self.selected) {
             t.prune(start);
+            t.select_into(sel, yaw, self.params.timing.max_turn);
         }
         let air = self.air.context(now);
-        let timing = self.timing.decode(&self.array, &self.trains, &air);
+        let timing = self.timing.decode(&self.array, &self.selected, &air);
+        let timing = self.hold(now, yaw, timing);
         if timing == Err(TimingSilence::Singular) {
             self.warn(now, InputWarning::SingularFit { stamp: now });
         }
         let amplitude = (self.params.amplitude.enabled && self.chem_seen).then(|| self.amplitude.cue(now, air.upwind));
         let t_vote = timing.as_ref().ok().map(|c| Vote { bearing: c.bearing, confidence: c.confidence, lag: c.lag });
+        // A side-only amplitude answer is not an angle: it speaks only when timing is silent.
         let a_vote = amplitude
             .as_ref()
             .and_then(|a| a.as_ref().ok())
+            .filter(|c| !(c.side_only && t_vote.is_some()))
             .map(|c| Vote { bearing: c.bearing, confidence: c.confidence, lag: f64::NAN });
         let fused = fuse(t_vote, a_vote, self.params.fusion.min_ratio);
         Estimate { stamp: now, fused, timing, amplitude, air }
+    }
+
+    /// Keeps a fresh timing cue; while the onsets are too few, gives the last one turned into
+    /// the current frame with its confidence falling linearly over `timing.hold`.
+    fn hold(&mut self, now: Nanos, yaw: Option<f64>, fresh: Result<TimingCue, TimingSilence>) -> Result<TimingCue, TimingSilence> {
+        let hold = self.params.timing.hold;
+        match (fresh, yaw) {
+            (Ok(c), Some(y)) => {
+                self.held = Some((now, crate::geometry::angle_diff(c.bearing, -y), c));
+                Ok(c)
+            }
+            (Err(s @ (TimingSilence::NoMatches | TimingSilence::TooFewMatches { .. })), Some(y)) if hold > 0.0 => match self.held {
+                Some((t0, b, c)) if now >= t0 && secs(now - t0) < hold => {
+                    let age = secs(now - t0);
+                    let bearing = crate::geometry::angle_diff(b, y);
+                    Ok(TimingCue { bearing, confidence: c.confidence * (1.0 - age / hold), age, ..c })
+                }
+                _ => Err(s),
+            },
+            (other, _) => other,
+        }
     }
 
     fn publish(&mut self, now: Nanos, out: &mut Outbox) {
@@ -181,6 +217,8 @@ impl BearingDecoder {
 
     fn on_events(&mut self, now: Nanos, m: &OdorEventArray) -> bool {
         let gap = nanos(self.params.timing.onset_gap);
+        let from_events = self.params.timing.onsets == OnsetSource::FirstEvent;
+        let yaw = self.air.yaw();
         let mut fresh = false;
         for ev in &m.events {
             self.stats.events += 1;
@@ -197,7 +235,13 @@ impl BearingDecoder {
                     continue;
                 }
             };
-            match self.trains[sensor].push(stamp, ev.polarity, gap) {
+            if !from_events {
+                if ev.polarity != OdorEvent::RISING && ev.polarity != OdorEvent::FALLING {
+                    self.warn(now, InputWarning::BadPolarity { stamp, channel: ev.channel, polarity: ev.polarity });
+                }
+                continue;
+            }
+            match self.trains[sensor].push_at(stamp, ev.polarity, gap, yaw) {
                 Push::Onset => {
                     self.stats.onsets += 1;
                     fresh = true;
@@ -214,26 +258,40 @@ impl BearingDecoder {
         fresh
     }
 
-    fn on_chem(&mut self, now: Nanos, m: &ChemSample) {
+    /// Takes a chem sample; true when it confirmed a rise onset (`timing.onsets: rise`).
+    fn on_chem(&mut self, now: Nanos, m: &ChemSample) -> bool {
         let stamp = m.header.stamp.to_nanos();
         let repeated = m.channels.iter().enumerate().any(|(i, n)| m.channels[..i].contains(n));
         if m.values.len() != m.channels.len() || repeated {
             let w = InputWarning::ChemShape { stamp, values: m.values.len(), channels: m.channels.len() };
             self.warn(now, w);
-            return;
+            return false;
         }
         self.channels.update(&m.channels, &self.array);
-        if !self.params.amplitude.enabled {
-            return;
+        let rises = self.params.timing.onsets == OnsetSource::Rise;
+        if !self.params.amplitude.enabled && !rises {
+            return false;
         }
         self.chem_seen = true;
+        let yaw = self.air.yaw();
+        let mut fresh = false;
         for (i, &v) in m.values.iter().enumerate() {
             let Some(sensor) = self.channels.sensor(i) else { continue };
-            if let Err(fault) = self.amplitude.on_value(sensor, now, v, m.quantity) {
-                self.warn(now, InputWarning::ChemValue { stamp, channel: i, reason: fault.to_string() });
+            match self.amplitude.on_value(sensor, now, v, m.quantity) {
+                Err(fault) => self.warn(now, InputWarning::ChemValue { stamp, channel: i, reason: fault.to_string() }),
+                Ok(Some(x)) if rises => {
+                    if let Some(onset) = self.rises[sensor].push(stamp, x) {
+                        if self.trains[sensor].push_onset(onset, yaw) {
+                            self.stats.onsets += 1;
+                            fresh = true;
+                        }
+                    }
+                }
+                Ok(_) => {}
             }
         }
         self.amplitude.end_sample(now);
+        fresh
     }
 }
 
@@ -272,7 +330,12 @@ impl NodeCore for BearingDecoder {
                     self.warn(now, w);
                 }
             }
-            (IN_CHEM, Msg::ChemSample(m)) => self.on_chem(now, m),
+            (IN_CHEM, Msg::ChemSample(m)) => {
+                let fresh = self.on_chem(now, m);
+                if fresh && self.params.publish_on_evidence {
+                    self.publish(now, out);
+                }
+            }
             (IN_ODOM, Msg::Odometry(m)) => {
                 if let Err(w) = self.air.on_odom(now, m) {
                     self.warn(now, w);
@@ -305,8 +368,14 @@ impl NodeCore for BearingDecoder {
         next.stats = std::mem::take(&mut self.stats);
         next.last = self.last.take();
         let same_array = next.array == self.array;
-        if same_array && next.params.timing.max_onsets == self.params.timing.max_onsets {
+        if same_array && next.params.timing.max_onsets == self.params.timing.max_onsets && next.params.timing.onsets == self.params.timing.onsets {
             next.trains = std::mem::take(&mut self.trains);
+        }
+        if same_array && next.params.amplitude.conditioning == self.params.amplitude.conditioning {
+            for (i, (r, old)) in next.rises.iter_mut().zip(&self.rises).enumerate() {
+                *r = old.clone();
+                r.set_settings(next.params.rise_settings(i));
+            }
         }
         if same_array {
             next.channels = self.channels.clone();

@@ -7,7 +7,9 @@
 //! latest `chem` sample's `channels` when `chem` is connected, otherwise from `channel_names`.
 
 use crate::air::AirSettings;
-use crate::geometry::{GeometryError, SensorArray, Vec2};
+use sillage_air::AirParams;
+use crate::geometry::{GeometryError, SensorArray};
+use crate::rises::RiseSettings;
 use crate::timing::TimingSettings;
 use serde::{Deserialize, Serialize};
 use sillage_core::params::{ensure, NodeParams, ParamError};
@@ -50,6 +52,9 @@ pub struct SensorParams {
     pub x: Vec<f64>,
     /// y of each sensor [m].
     pub y: Vec<f64>,
+    /// Response delay of each sensor, subtracted from its rise onsets [s] (finite; same length
+    /// as `names`, or all zeros for none): aligns sensors whose responses lag each other.
+    pub delay: Vec<f64>,
 }
 
 /// Wind and robot motion.
@@ -60,12 +65,14 @@ pub struct WindParams {
     pub air_speed: f64,
     /// A wind message is valid this long [s] (> 0).
     pub timeout: f64,
-    /// True wind speeds below this are still air: no timing bearing [m/s] (> 0).
+    /// True wind speeds below this are still air: no timing bearing [m/s] (> 0; the shared
+    /// `sillage_air` meaning and default).
     pub min_speed: f64,
-    /// The wind topic is measured on the robot (apparent wind = true wind - robot velocity):
-    /// compensate with odometry.
-    pub apparent: bool,
-    /// Anemometer x in base_link [m].
+    /// A base-frame wind message is the relative wind at the moving anemometer (true wind =
+    /// relative + anemometer velocity from odometry); false: it is already the true wind.
+    /// A message in the odometry's parent frame is always a true wind.
+    pub relative: bool,
+    /// Anemometer x in base_link (lever arm of the rotation term) [m].
     pub anemometer_x: f64,
     /// Anemometer y in base_link [m].
     pub anemometer_y: f64,
@@ -73,12 +80,49 @@ pub struct WindParams {
     pub odom_timeout: f64,
 }
 
+impl WindParams {
+    /// The shared air parameters among these.
+    pub fn air(&self) -> AirParams {
+        AirParams { relative: self.relative, anemometer_x: self.anemometer_x, anemometer_y: self.anemometer_y, min_speed: self.min_speed }
+    }
+}
+
+/// Where the timing cue takes its onsets from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum OnsetSource {
+    /// The slope peak of each rise of the conditioned `chem` signal (slow sensors).
+    Rise,
+    /// The first rising odor event after a fall or a quiet `onset_gap` (fast sensors).
+    FirstEvent,
+}
+
 /// Timing cue.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
 pub struct TimingParams {
-    /// Sliding window of onsets used for the lag [s] (> 0).
+    /// Onsets from `rise` (the chem signal's slope peaks) or `first_event` (odor events).
+    pub onsets: OnsetSource,
+    /// Sliding window of onsets used for the lag [s] (>= 0; 0 = `2 (tau_rise + tau_decay)`,
+    /// two full responses of the sensors).
     pub window: f64,
+    /// Rise time constant of the sensors [s] (> 0; sizes the window).
+    pub tau_rise: f64,
+    /// Decay time constant of the sensors [s] (> 0; sizes the window).
+    pub tau_decay: f64,
+    /// Slope of the conditioned signal that starts a rise [conditioned units/s] (> 0).
+    pub rise_slope: f64,
+    /// Smoothing time constant of that slope [s] (>= 0).
+    pub slope_tau: f64,
+    /// Smallest gain of the conditioned signal over a rise [conditioned units] (>= 0).
+    pub min_rise: f64,
+    /// Onsets taken while the robot headed more than this away from its heading now are not
+    /// paired (their lags belong to another frame) [rad] (> 0).
+    pub max_turn: f64,
+    /// While the onsets give no bearing, the last one is held this long [s], kept fixed in the
+    /// odometry frame (turned with the heading) and its confidence falling linearly to zero
+    /// (>= 0; 0 = off; needs odometry).
+    pub hold: f64,
     /// Cross-correlation bin width [s] (> 0, well below the lags of interest).
     pub bin: f64,
     /// Largest lag ever searched [s] (> 0; the search also stops at the plane-wave bound).
@@ -132,6 +176,12 @@ pub struct AmplitudeParams {
     pub contrast_spread: f64,
     /// Trust in the amplitude cue relative to timing (0..1).
     pub weight: f64,
+    /// Gain of each sensor's conditioned response [-] (> 0; same length as `sensors.names`,
+    /// or all ones for none): matches sensors of unequal sensitivity.
+    pub gains: Vec<f64>,
+    /// Two sensors: an amplitude angle further than this from upwind is not trusted; only the
+    /// side (left/right) is published [rad] (0..pi; pi = always the angle).
+    pub max_off_wind: f64,
     /// No chem sample for this long: no amplitude cue [s] (> 0).
     pub timeout: f64,
     /// Conditioning of the raw chem values (the event encoder's, see its docs).
@@ -167,19 +217,20 @@ impl Default for Params {
 impl Default for SensorParams {
     /// Left and right at +-half of a 0.2 m spacing on the y axis.
     fn default() -> Self {
-        SensorParams { names: vec!["left".into(), "right".into()], x: vec![0.0, 0.0], y: vec![0.1, -0.1] }
+        SensorParams { names: vec!["left".into(), "right".into()], x: vec![0.0, 0.0], y: vec![0.1, -0.1], delay: vec![0.0, 0.0] }
     }
 }
 
 impl Default for WindParams {
     fn default() -> Self {
+        let air = AirParams::default();
         WindParams {
             air_speed: 0.5,
             timeout: 1.0,
-            min_speed: 0.05,
-            apparent: true,
-            anemometer_x: 0.0,
-            anemometer_y: 0.0,
+            min_speed: air.min_speed,
+            relative: air.relative,
+            anemometer_x: air.anemometer_x,
+            anemometer_y: air.anemometer_y,
             odom_timeout: 0.5,
         }
     }
@@ -188,14 +239,22 @@ impl Default for WindParams {
 impl Default for TimingParams {
     fn default() -> Self {
         TimingParams {
-            window: 10.0,
+            onsets: OnsetSource::Rise,
+            window: 0.0,
+            tau_rise: 1.8,
+            tau_decay: 11.1,
+            rise_slope: 0.02,
+            slope_tau: 0.1,
+            min_rise: 0.01,
+            max_turn: 30f64.to_radians(),
+            hold: 5.0,
             bin: 0.005,
             max_lag: 1.0,
             lag_margin: 0.25,
             onset_gap: 0.5,
             match_tolerance: 0.1,
             outlier_mad: 3.0,
-            min_matches: 3,
+            min_matches: 2,
             confidence_matches: 5.0,
             bearing_spread: 5f64.to_radians(),
             max_onsets: 256,
@@ -219,6 +278,8 @@ impl Default for AmplitudeParams {
             saturation: 0.5,
             contrast_spread: 0.2,
             weight: 0.5,
+            gains: vec![1.0, 1.0],
+            max_off_wind: 20f64.to_radians(),
             timeout: 1.0,
             conditioning: ConditioningParams::default(),
         }
@@ -227,7 +288,7 @@ impl Default for AmplitudeParams {
 
 impl Default for FusionParams {
     fn default() -> Self {
-        FusionParams { min_ratio: 0.25 }
+        FusionParams { min_ratio: 0.1 }
     }
 }
 
@@ -252,6 +313,7 @@ impl Params {
             names: self.channel_names.clone(),
             x: sensors.iter().map(|s| s.1).collect(),
             y: sensors.iter().map(|s| s.2).collect(),
+            delay: vec![0.0; sensors.len()],
         };
         self
     }
@@ -275,13 +337,27 @@ impl Params {
         let w = &self.wind;
         AirSettings {
             base_frame: self.base_frame.clone(),
-            apparent: w.apparent,
-            anemometer: Vec2::new(w.anemometer_x, w.anemometer_y),
+            air: w.air(),
             wind_timeout: nanos(w.timeout),
             odom_timeout: nanos(w.odom_timeout),
-            min_speed: w.min_speed,
             air_speed: w.air_speed,
         }
+    }
+
+    /// The onset window in use [s]: `timing.window`, or two full responses of the sensors.
+    pub fn window(&self) -> f64 {
+        let t = &self.timing;
+        if t.window > 0.0 {
+            t.window
+        } else {
+            2.0 * (t.tau_rise + t.tau_decay)
+        }
+    }
+
+    /// Settings of the rise detector of sensor `i` (of `sensors.names`).
+    pub fn rise_settings(&self, i: usize) -> RiseSettings {
+        let t = &self.timing;
+        RiseSettings { slope: t.rise_slope, slope_tau: t.slope_tau, min_rise: t.min_rise, delay: self.sensors.delay.get(i).copied().unwrap_or(0.0) }
     }
 
     /// Settings of the timing cue.
@@ -317,17 +393,26 @@ impl NodeParams for Params {
         let w = &self.wind;
         non_negative(w.air_speed, "wind.air_speed", "[m/s]")?;
         positive(w.timeout, "wind.timeout", "[s]")?;
-        positive(w.min_speed, "wind.min_speed", "[m/s]")?;
-        ensure(w.anemometer_x.is_finite(), "wind.anemometer_x", "must be finite [m]")?;
-        ensure(w.anemometer_y.is_finite(), "wind.anemometer_y", "must be finite [m]")?;
+        w.air().check("wind")?;
         positive(w.odom_timeout, "wind.odom_timeout", "[s]")?;
         let t = &self.timing;
-        positive(t.window, "timing.window", "[s]")?;
+        non_negative(t.window, "timing.window", "[s]")?;
+        positive(t.tau_rise, "timing.tau_rise", "[s]")?;
+        positive(t.tau_decay, "timing.tau_decay", "[s]")?;
+        positive(t.rise_slope, "timing.rise_slope", "[conditioned units/s]")?;
+        non_negative(t.slope_tau, "timing.slope_tau", "[s]")?;
+        non_negative(t.min_rise, "timing.min_rise", "[conditioned units]")?;
+        positive(t.max_turn, "timing.max_turn", "[rad]")?;
+        non_negative(t.hold, "timing.hold", "[s]")?;
+        let s = &self.sensors;
+        let no_delays = s.delay.iter().all(|&d| d == 0.0);
+        ensure(no_delays || s.delay.len() == s.names.len(), "sensors.delay", format!("has {} values for {} sensors", s.delay.len(), s.names.len()))?;
+        ensure(s.delay.iter().all(|d| d.is_finite()), "sensors.delay", "must be finite [s]")?;
         positive(t.bin, "timing.bin", "[s]")?;
         ensure(t.bin >= 1e-6, "timing.bin", "must be >= 1e-6 [s]")?;
         positive(t.max_lag, "timing.max_lag", "[s]")?;
         ensure(t.max_lag / t.bin <= 100_000.0, "timing.max_lag", "must be at most 100000 bins (timing.bin)")?;
-        ensure(t.max_lag < t.window, "timing.max_lag", "must be shorter than timing.window")?;
+        ensure(t.max_lag < self.window(), "timing.max_lag", "must be shorter than the onset window (timing.window, or 2 (tau_rise + tau_decay))")?;
         non_negative(t.lag_margin, "timing.lag_margin", "")?;
         non_negative(t.onset_gap, "timing.onset_gap", "[s]")?;
         positive(t.match_tolerance, "timing.match_tolerance", "[s]")?;
@@ -350,6 +435,10 @@ impl NodeParams for Params {
         ensure(a.saturation > 0.0 && a.saturation <= 1.0, "amplitude.saturation", "must be in (0, 1]")?;
         positive(a.contrast_spread, "amplitude.contrast_spread", "")?;
         unit_interval(a.weight, "amplitude.weight")?;
+        let ones = a.gains.iter().all(|&g| g == 1.0);
+        ensure(ones || a.gains.len() == self.sensors.names.len(), "amplitude.gains", format!("has {} values for {} sensors", a.gains.len(), self.sensors.names.len()))?;
+        ensure(a.gains.iter().all(|g| g.is_finite() && *g > 0.0), "amplitude.gains", "must be > 0")?;
+        ensure((0.0..=std::f64::consts::PI).contains(&a.max_off_wind), "amplitude.max_off_wind", "must be in 0..pi [rad]")?;
         positive(a.timeout, "amplitude.timeout", "[s]")?;
         a.conditioning.check("amplitude.conditioning")?;
         unit_interval(self.fusion.min_ratio, "fusion.min_ratio")
@@ -389,7 +478,10 @@ mod tests {
         assert_eq!(key_of("    channel_names: [left, middle]\n"), "channel_names");
         assert_eq!(key_of("    wind:\n      min_speed: .nan\n"), "wind.min_speed");
         assert_eq!(key_of("    timing:\n      bin: -0.01\n"), "timing.bin");
-        assert_eq!(key_of("    timing:\n      max_lag: 20.0\n"), "timing.max_lag");
+        assert_eq!(key_of("    timing:\n      max_lag: 30.0\n"), "timing.max_lag");
+        assert_eq!(key_of("    sensors:\n      delay: [0.1]\n"), "sensors.delay");
+        assert_eq!(key_of("    timing:\n      max_turn: 0.0\n"), "timing.max_turn");
+        assert_eq!(key_of("    timing:\n      onsets: peaks\n"), "timing.onsets");
         assert_eq!(key_of("    front_back:\n      unresolved_scale: 2.0\n"), "front_back.unresolved_scale");
         assert_eq!(key_of("    amplitude:\n      conditioning:\n        gain: 0.0\n"), "amplitude.conditioning.gain");
         assert_eq!(key_of("    timing:\n      no_such: 1\n"), "timing.no_such");

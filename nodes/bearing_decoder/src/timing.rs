@@ -75,6 +75,9 @@ pub struct TimingCue {
     pub clamped: bool,
     /// rms residual of the plane-wave fit [s] (N sensors only).
     pub residual: Option<f64>,
+    /// Age of the estimate [s]: 0 when computed from the onsets now, > 0 when an earlier one
+    /// is held (turned into the current base_link with the heading change).
+    pub age: f64,
 }
 
 /// Why the timing cue has nothing to say.
@@ -198,6 +201,7 @@ impl TimingDecoder {
             resolution,
             clamped: sol.clamped(),
             residual: None,
+            age: 0.0,
         })
     }
 
@@ -245,6 +249,7 @@ impl TimingDecoder {
             resolution: Resolution::Coincident,
             clamped: false,
             residual: Some(fit.residual),
+            age: 0.0,
         })
     }
 }

@@ -20,6 +20,8 @@ fn params_for(s: &Scenario) -> Params {
     let names = synth::names(s);
     let sensors: Vec<(&str, f64, f64)> = names.iter().zip(&s.sensors).map(|(n, q)| (n.as_str(), q.0, q.1)).collect();
     let mut p = Params::default().with_sensors(&sensors);
+    p.timing.onsets = sillage_bearing_decoder::params::OnsetSource::FirstEvent;
+    p.timing.window = 10.0;
     p.amplitude.enabled = false; // the timing cue is under test
     p
 }

@@ -15,6 +15,16 @@ const DEG: f64 = std::f64::consts::PI / 180.0;
 const TRIANGLE: [(&str, f64, f64); 3] = [("left", 0.0, 0.1), ("right", 0.0, -0.1), ("front", 0.2, 0.0)];
 
 /// An OdorEventArray with one event per (stamp, channel, polarity).
+
+/// The defaults with onsets from the odor events (the tests below drive `odor_events`) and the
+/// former 10 s window.
+fn event_params() -> Params {
+    let mut p = Params::default();
+    p.timing.onsets = sillage_bearing_decoder::params::OnsetSource::FirstEvent;
+    p.timing.window = 10.0;
+    p
+}
+
 fn events(list: &[(Nanos, u16, i8)]) -> OdorEventArray {
     let stamp = list.iter().map(|e| e.0).max().unwrap_or(0);
     OdorEventArray {
@@ -77,7 +87,7 @@ impl Drive {
 
 #[test]
 fn ports_timer_and_none_when_nothing_is_known() {
-    let n = BearingDecoder::new(Params::default()).expect("valid");
+    let n = BearingDecoder::new(event_params()).expect("valid");
     let inputs: Vec<String> = n.inputs().iter().map(|p| p.topic.clone()).collect();
     assert_eq!(inputs, ["odor_events", "wind", "chem", "odom"]);
     assert_eq!(n.outputs()[0].topic, "odor_bearing");
@@ -107,7 +117,7 @@ fn ports_timer_and_none_when_nothing_is_known() {
 fn timing_bearing_end_to_end_with_front_back_from_the_wind() {
     // d = 0.2 m, U = 0.5 m/s, lag 0.2 s: 30 deg in front, or 150 deg behind (references.md).
     for (upwind, want) in [(20.0, 30.0), (170.0, 150.0)] {
-        let mut d = Drive::new(Params::default());
+        let mut d = Drive::new(event_params());
         d.send(0, IN_WIND, wind(upwind * DEG, 0.5, "base_link"));
         let before = d.published.len();
         let t = d.pulses(100 * MS, 8, 0.2, 0, 1);
@@ -124,7 +134,7 @@ fn timing_bearing_end_to_end_with_front_back_from_the_wind() {
 #[test]
 fn unresolved_front_back_and_clamp_are_said() {
     // Wind from the left, along the sensor axis: front/back cannot be settled.
-    let mut d = Drive::new(Params::default());
+    let mut d = Drive::new(event_params());
     d.send(0, IN_WIND, wind(90.0 * DEG, 0.5, ""));
     let t = d.pulses(100 * MS, 8, 0.2, 0, 1);
     d.send(t, IN_WIND, wind(90.0 * DEG, 0.5, ""));
@@ -135,7 +145,7 @@ fn unresolved_front_back_and_clamp_are_said() {
     assert!((b.bearing - 30.0 * DEG).abs() < 1e-4, "the forward candidate");
     assert!(d.node.stats().unresolved > 0);
     // unresolved_scale = 0: say nothing instead.
-    let mut p = Params::default();
+    let mut p = event_params();
     p.front_back.unresolved_scale = 0.0;
     let mut d = Drive::new(p);
     d.send(0, IN_WIND, wind(90.0 * DEG, 0.5, ""));
@@ -143,7 +153,7 @@ fn unresolved_front_back_and_clamp_are_said() {
     d.send(t, IN_WIND, wind(90.0 * DEG, 0.5, ""));
     assert_eq!(d.tick(t).cue, OdorBearing::NONE);
     // A lag beyond d / U (0.45 s > 0.4 s, within the 25 % margin): clamped to 90 deg.
-    let mut d = Drive::new(Params::default());
+    let mut d = Drive::new(event_params());
     d.send(0, IN_WIND, wind(60.0 * DEG, 0.5, ""));
     let t = d.pulses(100 * MS, 8, 0.45, 0, 1);
     d.send(t, IN_WIND, wind(60.0 * DEG, 0.5, ""));
@@ -154,7 +164,7 @@ fn unresolved_front_back_and_clamp_are_said() {
 
 #[test]
 fn channel_names_come_from_chem_when_present() {
-    let mut d = Drive::new(Params::default());
+    let mut d = Drive::new(event_params());
     d.send(0, IN_WIND, wind(0.0, 0.5, ""));
     // The chem list puts right first: channel 0 is now the right sensor.
     let chem = ChemSample {
@@ -192,7 +202,7 @@ fn odometry_compensates_the_apparent_wind() {
     let mut odom = Odometry::default();
     odom.twist.twist.linear.x = v;
     let run = |with_odom: bool| {
-        let mut d = Drive::new(Params::default());
+        let mut d = Drive::new(event_params());
         let mut t = 0;
         for k in 0..8 {
             if with_odom {
@@ -225,7 +235,7 @@ fn chem(t: Nanos, left: f64, right: f64) -> ChemSample {
 }
 
 fn relative_params() -> Params {
-    let mut p = Params::default();
+    let mut p = event_params();
     p.amplitude.conditioning.baseline_time_constant = 0.0; // RELATIVE values are responses already
     p.amplitude.conditioning.stuck_time = 0.0;
     p
@@ -262,7 +272,7 @@ fn amplitude_from_mox_resistance_through_the_default_conditioning() {
     // Default conditioning: log-conductance minus a slow baseline. 10 s of clean air at
     // 10 kOhm, then the left sensor falls to 7 kOhm and the right to 9 kOhm: responses
     // ln(10/7) = 0.357 and ln(10/9) = 0.105, contrast 0.545 > saturation 0.5: fully left.
-    let mut d = Drive::new(Params::default());
+    let mut d = Drive::new(event_params());
     d.send(0, IN_WIND, wind(0.0, 0.5, ""));
     let sample = |t: Nanos, l: f64, r: f64| ChemSample {
         header: Header::new(t, "chem"),
@@ -287,7 +297,7 @@ fn amplitude_from_mox_resistance_through_the_default_conditioning() {
 
 #[test]
 fn bad_input_is_counted_and_says_none_without_panicking() {
-    let mut d = Drive::new(Params::default());
+    let mut d = Drive::new(event_params());
     // Out of order on one channel, bad polarity.
     d.send(2 * S, IN_ODOR_EVENTS, events(&[(2 * S, 0, 1)]));
     d.send(2 * S, IN_ODOR_EVENTS, events(&[(S, 0, -1), (2 * S, 1, 5)]));
@@ -334,7 +344,7 @@ fn bad_input_is_counted_and_says_none_without_panicking() {
 
 #[test]
 fn a_planar_array_with_one_silent_sensor_warns_singular() {
-    let mut d = Drive::new(Params::default().with_sensors(&TRIANGLE));
+    let mut d = Drive::new(event_params().with_sensors(&TRIANGLE));
     let t = d.pulses(100 * MS, 8, 0.1, 0, 1); // the front sensor never fires
     assert_eq!(d.tick(t).cue, OdorBearing::NONE);
     assert!(d.node.warnings().count("singular_fit") > 0);
@@ -342,12 +352,12 @@ fn a_planar_array_with_one_silent_sensor_warns_singular() {
 
 #[test]
 fn bad_parameters_are_refused_with_the_key() {
-    let mut p = Params::default();
+    let mut p = event_params();
     p.sensors.y = vec![0.1, 0.1];
     let e = BearingDecoder::new(p).expect_err("coincident sensors");
     assert_eq!(e.key(), "sensors.y");
     assert!(e.to_string().contains("coincident"), "{e}");
-    let mut p = Params::default();
+    let mut p = event_params();
     p.sensors.names = vec!["a".into(), "b".into(), "c".into()];
     p.sensors.x = vec![0.0, 0.1, 0.2];
     p.sensors.y = vec![0.0, 0.0, 0.0];
@@ -358,7 +368,7 @@ fn bad_parameters_are_refused_with_the_key() {
 
 #[test]
 fn parameter_changes_keep_the_evidence_or_are_refused() {
-    let mut d = Drive::new(Params::default());
+    let mut d = Drive::new(event_params());
     d.send(0, IN_WIND, wind(20.0 * DEG, 0.5, ""));
     let t = d.pulses(100 * MS, 8, 0.2, 0, 1);
     let v: serde_yaml::Value = serde_yaml::from_str("timing: {bearing_spread: 0.2}").expect("yaml");
@@ -369,7 +379,7 @@ fn parameter_changes_keep_the_evidence_or_are_refused() {
     let bad: serde_yaml::Value = serde_yaml::from_str("wind: {min_speed: -1.0}").expect("yaml");
     let e = d.node.set_params_yaml(&bad).expect_err("refused");
     assert_eq!(e.key(), "wind.min_speed");
-    assert_eq!(d.node.params().wind.min_speed, 0.05, "old values kept");
+    assert_eq!(d.node.params().wind.min_speed, sillage_air::DEFAULT_MIN_SPEED, "old values kept");
     let yaml = d.node.params_yaml();
     assert_eq!(yaml["timing"]["bearing_spread"], serde_yaml::Value::from(0.2));
 }

@@ -1,5 +1,6 @@
 //! `sillage calibrate`: fits the plume estimator's distance model
-//! `ln(d) = intercept + rate_coef * bout_rate [+ amplitude_coef * ln(bout_amplitude)]` from
+//! `ln(d) = intercept + rate_coef * bout_rate [+ amplitude_coef * ln(bout_amplitude)]
+//! [+ wind_coef * ln(wind_speed)]` from
 //! labelled recordings and writes a parameter file the node loads as it is.
 //!
 //! Inputs, one of:
@@ -12,7 +13,11 @@
 //!   `nav_msgs/Odometry` (distance from the pose to `--source X,Y[,Z]`); see [`crate::truth`],
 //!   which `sillage tune` shares for its bag objectives.
 //! - `--features CSV`: windows already computed (`bout_rate`, `distance`, optionally
-//!   `bout_amplitude`).
+//!   `bout_amplitude` and `wind_speed`).
+//!
+//! With `--use-wind` the mean true wind speed of each window is a predictor too: from the
+//! CSV's `wind_speed` column, or for bags from `--wind-topic` (and `--odom-topic` to correct a
+//! wind measured on the moving robot), averaged over each window as the estimator does.
 //!
 //! Outputs: the fit on stdout, a plot (`--plot`, SVG unless the name ends in .png; default next
 //! to `--out`), the parameter file `--out` (the base parameters with the fitted `distance`
@@ -24,10 +29,10 @@ use plotters::prelude::*;
 use sillage_bag::{bag_info, Bag, ReadOptions};
 use sillage_core::any::normalize_type_name;
 use sillage_core::executor::{resolve_topic, Executor, Placement, Record};
-use sillage_core::msg::{ChemSample, DiagnosticStatus, PlumeFeatures};
+use sillage_core::msg::{ChemSample, DiagnosticStatus, Odometry, PlumeFeatures, Vector3Stamped};
 use sillage_core::{Msg, RosMessage};
-use sillage_plume_estimator::calibration::{fit_report, CalibrationPoint, FitReport};
-use sillage_plume_estimator::labels::{label_windows, parse_features_csv, LabelCounts, LabelOptions, Truth};
+use sillage_plume_estimator::calibration::{fit_model, CalibrationPoint, FitReport, Model};
+use sillage_plume_estimator::labels::{label_windows_in_wind, parse_features_csv, LabelCounts, LabelOptions, Truth};
 use sillage_plume_estimator::{calibration, Params, PlumeError, PlumeEstimator, NODE_NAME};
 use std::path::{Path, PathBuf};
 
@@ -40,7 +45,8 @@ pub struct Args {
     /// the bags (geometry_msgs/PointStamped, or nav_msgs/Odometry with --source).
     #[arg(long, value_name = "FILE_OR_TOPIC")]
     pub truth: Option<String>,
-    /// Windows already computed, instead of bags: CSV with bout_rate, distance[, bout_amplitude].
+    /// Windows already computed, instead of bags: CSV with bout_rate, distance[,
+    /// bout_amplitude][, wind_speed].
     #[arg(long, value_name = "CSV", conflicts_with_all = ["bags", "truth"])]
     pub features: Option<PathBuf>,
     /// Parameter file to write (e.g. config/plume_estimator.yaml).
@@ -61,6 +67,18 @@ pub struct Args {
     /// Fit ln(bout amplitude) too.
     #[arg(long)]
     pub use_amplitude: bool,
+    /// Fit ln(wind speed) too: the mean true wind speed of each window, from the features
+    /// CSV's `wind_speed` column or, for bags, from --wind-topic (and --odom-topic).
+    #[arg(long)]
+    pub use_wind: bool,
+    /// Vector3Stamped wind topic in the bags (with --use-wind).
+    #[arg(long)]
+    pub wind_topic: Option<String>,
+    /// Odometry topic in the bags, to correct a wind measured on the moving robot (with
+    /// --use-wind; without it a relative wind cannot be corrected and is not used; see the
+    /// estimator's `wind` parameters).
+    #[arg(long)]
+    pub odom_topic: Option<String>,
     /// Plot file (.svg or .png; default: --out with the extension .svg).
     #[arg(long)]
     pub plot: Option<PathBuf>,
@@ -98,7 +116,7 @@ pub fn run(args: Args) -> Result<()> {
         (None, true) => bail!("give labelled bags with --truth, or --features CSV"),
     };
     let points: Vec<CalibrationPoint> = rows.iter().map(|r| r.point).collect();
-    let report = fit_report(&points, args.use_amplitude).map_err(|e| match e {
+    let report = fit_model(&points, Model { amplitude: args.use_amplitude, wind: args.use_wind }).map_err(|e| match e {
         PlumeError::BadPoint { index, .. } => anyhow::anyhow!("{} ({})", e, rows[index].origin),
         e => e.into(),
     })?;
@@ -115,9 +133,9 @@ pub fn run(args: Args) -> Result<()> {
     }
     std::fs::write(&args.out, text).with_context(|| format!("writing {}", args.out.display()))?;
     if let Some(csv) = &args.save_features {
-        let mut s = String::from("origin,bout_rate,bout_amplitude,distance\n");
+        let mut s = String::from("origin,bout_rate,bout_amplitude,distance,wind_speed\n");
         for r in &rows {
-            s += &format!("{},{},{},{}\n", r.origin.replace(',', ";"), r.point.bout_rate, r.point.bout_amplitude, r.point.distance);
+            s += &format!("{},{},{},{},{}\n", r.origin.replace(',', ";"), r.point.bout_rate, r.point.bout_amplitude, r.point.distance, r.point.wind_speed);
         }
         std::fs::write(csv, s).with_context(|| format!("writing {}", csv.display()))?;
         println!("labelled windows: {}", csv.display());
@@ -150,7 +168,7 @@ fn bag_rows(args: &Args, base: &Params) -> Result<Vec<Row>> {
     let mut rows = Vec::new();
     for path in &args.bags {
         let bag = Bag::open(path)?;
-        let (features, truth, diag) = run_bag(args, base, &bag, &source).with_context(|| format!("bag {}", path.display()))?;
+        let (features, winds, truth, diag) = run_bag(args, base, &bag, &source).with_context(|| format!("bag {}", path.display()))?;
         let default_gap = if matches!(source, TruthSource::Csv(..)) { f64::INFINITY } else { 5.0 };
         let opts = LabelOptions {
             window: base.features.window,
@@ -158,7 +176,7 @@ fn bag_rows(args: &Args, base: &Params) -> Result<Vec<Row>> {
             max_gap: sillage_core::time::nanos(args.truth_max_gap.unwrap_or(default_gap)),
             max_spread: args.max_spread,
         };
-        let (labelled, counts) = label_windows(&features, &truth, &opts);
+        let (labelled, counts) = label_windows_in_wind(&features, &winds, &truth, &opts);
         println!("{}: {}", path.display(), describe(&counts, labelled.len(), truth.samples().len()));
         if let Some(d) = diag {
             println!("  estimator input: {}", d);
@@ -175,9 +193,10 @@ fn describe(c: &LabelCounts, kept: usize, truth: usize) -> String {
     )
 }
 
-/// Runs one bag through the estimator; returns its outputs, the truth series and the input
-/// diagnostic at the end.
-fn run_bag(args: &Args, base: &Params, bag: &Bag, source: &TruthSource) -> Result<(Vec<PlumeFeatures>, Truth, Option<String>)> {
+/// Runs one bag through the estimator; returns its outputs, the mean true wind speed over each
+/// output's window (with --use-wind), the truth series and the input diagnostic at the end.
+#[allow(clippy::type_complexity)]
+fn run_bag(args: &Args, base: &Params, bag: &Bag, source: &TruthSource) -> Result<(Vec<PlumeFeatures>, Vec<Option<f64>>, Truth, Option<String>)> {
     let info = bag_info(bag)?;
     let type_of = |name: &str| info.topics.iter().find(|t| t.name == name).map(|t| normalize_type_name(&t.type_name).to_string());
     let chem_topic = match &args.chem_topic {
@@ -210,13 +229,27 @@ fn run_bag(args: &Args, base: &Params, bag: &Bag, source: &TruthSource) -> Resul
     let idx = ex.add_placed(Box::new(core), &placement)?;
     let out_topic = resolve_topic("plume_features", &args.namespace, NODE_NAME);
     let mut features = Vec::new();
+    let mut winds = Vec::new();
+    // The window's wind, from the estimator's own wind averaging fed with the bag's topics.
+    let wind = std::cell::RefCell::new(sillage_plume_estimator::wind::WindSpeed::new(base.wind.clone(), base.features.window));
     let mut sink = |r: &Record| {
         if let (true, Msg::PlumeFeatures(f)) = (r.topic == out_topic, r.msg) {
             features.push(f.clone());
+            winds.push(wind.borrow_mut().mean(r.stamp));
         }
     };
+    let wind_topics: Vec<String> = if args.use_wind {
+        let w = args.wind_topic.clone().context("--use-wind with bags needs --wind-topic")?;
+        anyhow::ensure!(type_of(&w).as_deref() == Some(Vector3Stamped::TYPE_NAME), "--wind-topic {w} is not a {} topic of the bag", Vector3Stamped::TYPE_NAME);
+        if let Some(o) = &args.odom_topic {
+            anyhow::ensure!(type_of(o).as_deref() == Some(Odometry::TYPE_NAME), "--odom-topic {o} is not a {} topic of the bag", Odometry::TYPE_NAME);
+        }
+        std::iter::once(w).chain(args.odom_topic.clone()).collect()
+    } else {
+        Vec::new()
+    };
     let mut truth = Truth::new();
-    let topics = std::iter::once(chem_topic.clone()).chain(truth_topic.clone()).collect();
+    let topics = std::iter::once(chem_topic.clone()).chain(truth_topic.clone()).chain(wind_topics.iter().cloned()).collect();
     let mut last = None;
     for item in bag.messages(&ReadOptions { topics: Some(topics), ..Default::default() })? {
         let m = item?;
@@ -225,6 +258,14 @@ fn run_bag(args: &Args, base: &Params, bag: &Bag, source: &TruthSource) -> Resul
             ex.run_until(t, &mut sink)?;
             ex.inject(t, &chem_topic, m.msg)?;
             last = Some(t);
+        } else if wind_topics.iter().any(|w| m.topic.as_ref() == w) {
+            match &m.msg {
+                Msg::Vector3Stamped(v) => {
+                    wind.borrow_mut().on_wind(t, v);
+                }
+                Msg::Odometry(o) => wind.borrow_mut().on_odom(t, o),
+                _ => {}
+            }
         } else if let Some(d) = truth_distance(&m.msg, args.source.as_deref()) {
             truth.push(t, d);
         }
@@ -244,7 +285,8 @@ fn run_bag(args: &Args, base: &Params, bag: &Bag, source: &TruthSource) -> Resul
             format!("{} accepted of {} received, grid {} Hz ({})", v("accepted"), v("received"), v("grid_rate_hz"), s.message)
         })
     });
-    Ok((features, truth, diag))
+    drop(sink);
+    Ok((features, winds, truth, diag))
 }
 
 /// The true distance a truth message carries [m].
@@ -256,6 +298,7 @@ fn print_fit(r: &FitReport, rows: &[Row]) {
     let f = &r.fit;
     println!("fitted {} windows:", f.n);
     let amp = if f.use_amplitude { format!(" {:+.6} ln(bout_amplitude)", f.amplitude_coef) } else { String::new() };
+    let amp = if f.use_wind { format!("{amp} {:+.6} ln(wind_speed)", f.wind_coef) } else { amp };
     println!("  ln(d / 1 m) = {:.6} {:+.6} bout_rate{amp}", f.intercept, f.rate_coef);
     println!("  R^2 (ln d) {:.4}, residual std {:.4} ln m (distance_sigma = {:.1} % of the distance)", f.r_squared, f.residual_std, 100.0 * f.residual_std);
     println!("  in-sample RMSE {:.3} m; leave-one-out RMSE {:.3} m ({:.4} ln m), mean relative error {:.1} %", f.rmse, f.loo_rmse, f.loo_rmse_ln, 100.0 * f.loo_mean_relative);
@@ -326,13 +369,16 @@ where
     let d_max = points.iter().map(|p| p.distance).chain(r.loo.iter().copied()).fold(0.0f64, f64::max).max(1e-3) * 1.1;
     let mut chart = panel(&left, "distance against bout rate", (rate_max, "bout rate [Hz]"), (d_max, "true distance [m]"))?;
     chart.draw_series(points.iter().map(|p| Circle::new((p.bout_rate, p.distance), 3, BLUE.filled()))).map_err(plot_err)?;
-    // The model (at the median amplitude when it uses the amplitude).
-    let mut amps: Vec<f64> = points.iter().map(|p| p.bout_amplitude).filter(|a| *a > 0.0).collect();
-    amps.sort_by(f64::total_cmp);
-    let amp = amps.get(amps.len() / 2).copied().unwrap_or(1.0);
+    // The model (at the median amplitude and wind speed when it uses them).
+    let median = |v: &mut Vec<f64>| {
+        v.sort_by(f64::total_cmp);
+        v.get(v.len() / 2).copied().unwrap_or(1.0)
+    };
+    let amp = median(&mut points.iter().map(|p| p.bout_amplitude).filter(|a| *a > 0.0).collect());
+    let wind = median(&mut points.iter().map(|p| p.wind_speed).filter(|u| *u > 0.0).collect());
     let curve = (0..=200).map(|k| {
         let x = rate_max * k as f64 / 200.0;
-        (x, f.predict_ln(x, amp).exp().min(d_max))
+        (x, f.predict_ln_in(x, amp, wind).exp().min(d_max))
     });
     chart.draw_series(LineSeries::new(curve, RED.stroke_width(2))).map_err(plot_err)?;
 
@@ -370,6 +416,9 @@ mod tests {
             chem_topic: None,
             source: None,
             use_amplitude: false,
+            use_wind: false,
+            wind_topic: None,
+            odom_topic: None,
             plot: None,
             truth_max_gap: None,
             max_spread: 0.2,
@@ -426,6 +475,33 @@ mod tests {
         let again: Params = sillage_core::params::load_str(&std::fs::read_to_string(dir.join("again.yaml")).expect("written"), "again", "/plume_estimator").expect("loads");
         assert!((again.distance.rate_coef - p.distance.rate_coef).abs() < 1e-9 * p.distance.rate_coef.abs());
         let _ = std::fs::remove_dir_all(&dir);
+    }
+
+    #[test]
+    fn the_wind_speed_is_fitted_from_a_features_csv() {
+        // ln d = 1.0 - 0.5 r - 0.7 ln U, exact: the written model holds the wind coefficient;
+        // without the column the fit with --use-wind is refused and names the line.
+        let dir = temp("wind");
+        let csv = dir.join("w.csv");
+        let mut text = String::from("bout_rate,distance,wind_speed\n");
+        for k in 0..10 {
+            let (r, u) = (0.1 + 0.1 * k as f64, 0.3 + 0.2 * ((k * 3) % 4) as f64);
+            text += &format!("{r},{},{u}\n", (1.0 - 0.5 * r - 0.7 * f64::ln(u)).exp());
+        }
+        std::fs::write(&csv, &text).expect("writes");
+        let mut a = args(dir.join("o.yaml"));
+        a.features = Some(csv.clone());
+        a.use_wind = true;
+        run(a).expect("fits");
+        let written = std::fs::read_to_string(dir.join("o.yaml")).expect("written");
+        let p: Params = sillage_core::params::load_str(&written, "o.yaml", "/plume_estimator").expect("loads");
+        assert!(p.distance.use_wind && (p.distance.wind_coef + 0.7).abs() < 1e-9, "{:?}", p.distance);
+        std::fs::write(&csv, "bout_rate,distance\n0.1,3.0\n0.2,2.0\n0.3,1.5\n0.4,1.0\n0.5,0.8\n").expect("writes");
+        let mut a = args(dir.join("o2.yaml"));
+        a.features = Some(csv);
+        a.use_wind = true;
+        let e = run(a).expect_err("no wind column");
+        assert!(e.to_string().contains("wind_speed") && e.to_string().contains("w.csv:2"), "{e}");
     }
 
     #[test]

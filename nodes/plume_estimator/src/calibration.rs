@@ -1,9 +1,10 @@
 //! Fitting the distance model from labelled features (what `sillage calibrate` runs).
 //!
-//! Ordinary least squares of `ln(distance)` on `[1, bout_rate]` or `[1, bout_rate,
-//! ln(bout_amplitude)]` (the model of [`crate::distance`]). The predictors are centred and
-//! scaled before solving (the normal equations of standardised predictors are at most 2x2, so
-//! the solve is explicit and its conditioning is the predictors' correlation). Reported:
+//! Ordinary least squares of `ln(distance)` on `[1, bout_rate]`, optionally with
+//! `ln(bout_amplitude)` and `ln(wind_speed)` (the model of [`crate::distance`]). The
+//! predictors are centred and scaled before solving (the normal equations of standardised
+//! predictors are their correlation matrix, at most 3x3; its determinant says how collinear
+//! they are). Reported:
 //! - R^2 of the fit in ln space, `1 - SSE / SST`;
 //! - the residual std `sqrt(SSE / (n - p))` [ln m] (what `distance.residual_std` holds);
 //! - in-sample and leave-one-out errors in metres. Leave-one-out residuals come from the hat
@@ -11,10 +12,10 @@
 //!   least squares; the reference script checks it by explicit refits).
 //!
 //! Refused, with the reason: fewer than `p + 2` points (at least two residual degrees of
-//! freedom); a non-finite or negative rate, a distance that is not positive, an amplitude that
-//! is not positive when it is used; all distances equal; a predictor that does not vary;
-//! predictors so correlated that their coefficients are not determined; a point that alone
-//! determines a coefficient (leverage 1).
+//! freedom); a non-finite or negative rate, a distance that is not positive, an amplitude or a
+//! wind speed that is not positive when it is used; all distances equal; a predictor that does
+//! not vary; predictors so correlated that their coefficients are not determined; a point that
+//! alone determines a coefficient (leverage 1).
 
 use crate::error::PlumeError;
 use crate::params::{DistanceParams, Params};
@@ -28,6 +29,17 @@ pub struct CalibrationPoint {
     pub bout_amplitude: f64,
     /// True distance to the source [m].
     pub distance: f64,
+    /// Mean wind speed over the window [m/s] (only used when the model uses it; NaN unknown).
+    pub wind_speed: f64,
+}
+
+/// Which optional predictors the model uses besides the bout rate.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct Model {
+    /// `ln(bout_amplitude)`.
+    pub amplitude: bool,
+    /// `ln(wind_speed)`.
+    pub wind: bool,
 }
 
 /// A fitted distance model with its quality figures.
@@ -35,12 +47,16 @@ pub struct CalibrationPoint {
 pub struct Fit {
     /// Whether the model uses the amplitude.
     pub use_amplitude: bool,
+    /// Whether the model uses the wind speed.
+    pub use_wind: bool,
     /// Intercept [ln m].
     pub intercept: f64,
     /// Rate coefficient [ln m / Hz].
     pub rate_coef: f64,
     /// Coefficient of ln(amplitude) (0 when unused).
     pub amplitude_coef: f64,
+    /// Coefficient of ln(wind speed / (1 m/s)) (0 when unused).
+    pub wind_coef: f64,
     /// Points used.
     pub n: usize,
     /// Coefficient of determination in ln space.
@@ -66,14 +82,22 @@ impl Fit {
             rate_coef: self.rate_coef,
             use_amplitude: self.use_amplitude,
             amplitude_coef: self.amplitude_coef,
+            use_wind: self.use_wind,
+            wind_coef: self.wind_coef,
             residual_std: self.residual_std,
         }
     }
 
-    /// Predicted ln(distance) for one point.
+    /// Predicted ln(distance) for one point (the wind speed is ignored when unused).
     pub fn predict_ln(&self, bout_rate: f64, bout_amplitude: f64) -> f64 {
+        self.predict_ln_in(bout_rate, bout_amplitude, 1.0)
+    }
+
+    /// Predicted ln(distance) for one point at wind speed `wind_speed` [m/s].
+    pub fn predict_ln_in(&self, bout_rate: f64, bout_amplitude: f64, wind_speed: f64) -> f64 {
         let a = if self.use_amplitude { self.amplitude_coef * bout_amplitude.ln() } else { 0.0 };
-        self.intercept + self.rate_coef * bout_rate + a
+        let w = if self.use_wind { self.wind_coef * wind_speed.ln() } else { 0.0 };
+        self.intercept + self.rate_coef * bout_rate + a + w
     }
 }
 
@@ -85,8 +109,8 @@ pub fn parameter_file(base: &Params, fit: &Fit) -> String {
     sillage_core::params::to_file_text(crate::NODE_NAME, &p)
 }
 
-fn check_points(points: &[CalibrationPoint], use_amplitude: bool) -> Result<(), PlumeError> {
-    let p = if use_amplitude { 3 } else { 2 };
+fn check_points(points: &[CalibrationPoint], model: Model) -> Result<(), PlumeError> {
+    let p = 2 + usize::from(model.amplitude) + usize::from(model.wind);
     if points.len() < p + 2 {
         return Err(PlumeError::TooFewPoints { got: points.len(), needed: p + 2, coefficients: p });
     }
@@ -98,8 +122,11 @@ fn check_points(points: &[CalibrationPoint], use_amplitude: bool) -> Result<(), 
         if !(q.distance.is_finite() && q.distance > 0.0) {
             return bad("distance", q.distance, "must be finite and > 0 [m]");
         }
-        if use_amplitude && !(q.bout_amplitude.is_finite() && q.bout_amplitude > 0.0) {
+        if model.amplitude && !(q.bout_amplitude.is_finite() && q.bout_amplitude > 0.0) {
             return bad("bout_amplitude", q.bout_amplitude, "must be finite and > 0 when the model uses it (a window without bouts has none)");
+        }
+        if model.wind && !(q.wind_speed.is_finite() && q.wind_speed > 0.0) {
+            return bad("wind_speed", q.wind_speed, "must be finite and > 0 [m/s] when the model uses it");
         }
     }
     Ok(())
@@ -123,17 +150,29 @@ pub struct FitReport {
     pub loo: Vec<f64>,
 }
 
-/// Fits the distance model to `points`.
+/// Fits the distance model to `points` (rate, optionally amplitude).
 pub fn fit(points: &[CalibrationPoint], use_amplitude: bool) -> Result<Fit, PlumeError> {
     fit_report(points, use_amplitude).map(|r| r.fit)
 }
 
-/// Fits the distance model to `points`, with per-point predictions.
+/// Fits the distance model to `points` (rate, optionally amplitude), with per-point predictions.
 pub fn fit_report(points: &[CalibrationPoint], use_amplitude: bool) -> Result<FitReport, PlumeError> {
-    check_points(points, use_amplitude)?;
+    fit_model(points, Model { amplitude: use_amplitude, wind: false })
+}
+
+/// A predictor column: name for messages, values, unit text.
+struct Column {
+    name: &'static str,
+    values: Vec<f64>,
+    mean: f64,
+    sd: f64,
+}
+
+/// Fits the distance model with the predictors of `model`, with per-point predictions.
+pub fn fit_model(points: &[CalibrationPoint], model: Model) -> Result<FitReport, PlumeError> {
+    check_points(points, model)?;
     let n = points.len();
     let nf = n as f64;
-    let p = if use_amplitude { 3 } else { 2 };
     let degenerate = |reason: String| Err(PlumeError::Degenerate { reason });
 
     let y: Vec<f64> = points.iter().map(|q| q.distance.ln()).collect();
@@ -141,51 +180,58 @@ pub fn fit_report(points: &[CalibrationPoint], use_amplitude: bool) -> Result<Fi
     if ysd <= 1e-12 * ym.abs().max(1.0) {
         return degenerate(format!("all {n} true distances are equal ({} m): nothing to fit", points[0].distance));
     }
-    let (rm, rsd) = mean_sd(points.iter().map(|q| q.bout_rate));
-    if rsd <= 1e-12 * rm.abs().max(1e-300) {
-        return degenerate(format!("all {n} bout rates are equal ({} Hz): the rate coefficient is not determined", points[0].bout_rate));
+    let mut cols = vec![("bout rates", "the rate", points.iter().map(|q| q.bout_rate).collect::<Vec<_>>(), points[0].bout_rate, " Hz")];
+    if model.amplitude {
+        cols.push(("bout amplitudes", "the amplitude", points.iter().map(|q| q.bout_amplitude.ln()).collect(), points[0].bout_amplitude, ""));
     }
-    let (am, asd) = if use_amplitude { mean_sd(points.iter().map(|q| q.bout_amplitude.ln())) } else { (0.0, 1.0) };
-    if use_amplitude && asd <= 1e-12 * am.abs().max(1e-300) {
-        return degenerate(format!("all {n} bout amplitudes are equal ({}): the amplitude coefficient is not determined", points[0].bout_amplitude));
+    if model.wind {
+        cols.push(("wind speeds", "the wind", points.iter().map(|q| q.wind_speed.ln()).collect(), points[0].wind_speed, " m/s"));
     }
-    // Standardised predictors z (n x k, k = p - 1), centred response.
-    let z = |q: &CalibrationPoint| -> [f64; 2] {
-        [(q.bout_rate - rm) / rsd, if use_amplitude { (q.bout_amplitude.ln() - am) / asd } else { 0.0 }]
-    };
-    let corr = if use_amplitude { points.iter().map(|q| z(q)[0] * z(q)[1]).sum::<f64>() / nf } else { 0.0 };
-    let det = 1.0 - corr * corr; // det(Z'Z) / n^2 for standardised columns
+    let mut columns = Vec::with_capacity(cols.len());
+    for (plural, coef, values, first, unit) in cols {
+        let (mean, sd) = mean_sd(values.iter().copied());
+        if sd <= 1e-12 * mean.abs().max(1e-300) {
+            return degenerate(format!("all {n} {plural} are equal ({first}{unit}): {coef} coefficient is not determined"));
+        }
+        columns.push(Column { name: coef, values, mean, sd });
+    }
+    let k = columns.len();
+    // Standardised predictors z_i (length k) and their correlation matrix R = Z'Z / n.
+    let z = |i: usize| -> Vec<f64> { columns.iter().map(|c| (c.values[i] - c.mean) / c.sd).collect() };
+    let mut r = nalgebra::DMatrix::<f64>::zeros(k, k);
+    let mut zy = nalgebra::DVector::<f64>::zeros(k);
+    for (i, yi) in y.iter().enumerate() {
+        let zi = z(i);
+        for a in 0..k {
+            zy[a] += zi[a] * (yi - ym);
+            for b in 0..k {
+                r[(a, b)] += zi[a] * zi[b] / nf;
+            }
+        }
+    }
+    let det = r.determinant();
     if det <= 1e-10 {
-        return degenerate(format!("bout rate and ln(amplitude) are collinear (correlation {corr:.12}): fit without the amplitude"));
+        let names: Vec<&str> = columns.iter().map(|c| c.name.trim_start_matches("the ")).collect();
+        return degenerate(format!("the predictors ({}) are collinear (determinant of their correlation matrix {det:.3e}): fit with fewer of them", names.join(", ")));
     }
-    // (Z'Z)^-1 = [[1, -c], [-c, 1]] / (n det); beta = (Z'Z)^-1 Z'(y - ym).
-    let (mut zy0, mut zy1) = (0.0, 0.0);
-    for (q, yi) in points.iter().zip(&y) {
-        let zi = z(q);
-        zy0 += zi[0] * (yi - ym);
-        zy1 += zi[1] * (yi - ym);
-    }
-    let (b0, b1) = if use_amplitude {
-        ((zy0 - corr * zy1) / (nf * det), (zy1 - corr * zy0) / (nf * det))
-    } else {
-        (zy0 / nf, 0.0)
+    let Some(r_inv) = r.clone().try_inverse() else {
+        return degenerate(format!("the predictors' correlation matrix is singular (determinant {det:.3e})"));
     };
-    let rate_coef = b0 / rsd;
-    let amplitude_coef = if use_amplitude { b1 / asd } else { 0.0 };
-    let intercept = ym - rate_coef * rm - amplitude_coef * am;
+    let beta = &r_inv * &zy / nf;
+    let coef: Vec<f64> = columns.iter().zip(beta.iter()).map(|(c, b)| b / c.sd).collect();
+    let intercept = ym - columns.iter().zip(&coef).map(|(c, b)| b * c.mean).sum::<f64>();
+    let mut it = coef.iter().copied().skip(1);
+    let rate_coef = coef[0];
+    let amplitude_coef = if model.amplitude { it.next().unwrap_or(0.0) } else { 0.0 };
+    let wind_coef = if model.wind { it.next().unwrap_or(0.0) } else { 0.0 };
 
     let (mut sse, mut se_m, mut loo_se, mut loo_se_m, mut loo_rel) = (0.0, 0.0, 0.0, 0.0, 0.0);
     let (mut fitted_d, mut loo_d) = (Vec::with_capacity(n), Vec::with_capacity(n));
     for (i, (q, yi)) in points.iter().zip(&y).enumerate() {
-        let zi = z(q);
-        let fitted = ym + b0 * zi[0] + b1 * zi[1];
+        let zi = nalgebra::DVector::from_vec(z(i));
+        let fitted = ym + beta.dot(&zi);
         let e = yi - fitted;
-        let quad = if use_amplitude {
-            (zi[0] * zi[0] + zi[1] * zi[1] - 2.0 * corr * zi[0] * zi[1]) / (nf * det)
-        } else {
-            zi[0] * zi[0] / nf
-        };
-        let h = 1.0 / nf + quad;
+        let h = 1.0 / nf + (zi.transpose() * &r_inv * &zi)[(0, 0)] / nf;
         if 1.0 - h <= 1e-9 {
             return degenerate(format!("point {i} alone determines a coefficient (leverage {h:.9}): add points around it"));
         }
@@ -199,12 +245,15 @@ pub fn fit_report(points: &[CalibrationPoint], use_amplitude: bool) -> Result<Fi
         fitted_d.push(fitted.exp());
         loo_d.push(d_loo);
     }
+    let p = k + 1;
     let sst = ysd * ysd * nf;
     let fit = Fit {
-        use_amplitude,
+        use_amplitude: model.amplitude,
+        use_wind: model.wind,
         intercept,
         rate_coef,
         amplitude_coef,
+        wind_coef,
         n,
         r_squared: 1.0 - sse / sst,
         residual_std: (sse / (n - p) as f64).sqrt(),
@@ -223,7 +272,7 @@ mod tests {
     use sillage_core::params::load_str;
 
     fn pts(v: &[(f64, f64, f64)]) -> Vec<CalibrationPoint> {
-        v.iter().map(|&(bout_rate, bout_amplitude, distance)| CalibrationPoint { bout_rate, bout_amplitude, distance }).collect()
+        v.iter().map(|&(bout_rate, bout_amplitude, distance)| CalibrationPoint { bout_rate, bout_amplitude, distance, wind_speed: f64::NAN }).collect()
     }
 
     #[test]
@@ -244,6 +293,34 @@ mod tests {
         assert!(f.residual_std < 1e-12 && f.loo_rmse < 1e-10);
         let g = fit(&pts(&v), false).expect("fits without amplitude");
         assert!(g.r_squared < 1.0 && g.amplitude_coef == 0.0);
+    }
+
+    #[test]
+    fn exact_data_with_the_wind_is_recovered() {
+        // ln d = 0.4 - 0.6 r - 0.9 ln U + 0.2 ln a, no noise, over rates, speeds and amplitudes
+        // that vary independently: every coefficient exact; dropping the wind leaves residuals.
+        let v: Vec<CalibrationPoint> = (0..15)
+            .map(|k| {
+                let r = 0.1 + 0.15 * k as f64;
+                let u = 0.3 + 0.1 * ((k * 7) % 5) as f64;
+                let a = 1.0 + ((k * 3) % 4) as f64;
+                CalibrationPoint { bout_rate: r, bout_amplitude: a, distance: (0.4 - 0.6 * r - 0.9 * u.ln() + 0.2 * a.ln()).exp(), wind_speed: u }
+            })
+            .collect();
+        let f = fit_model(&v, Model { amplitude: true, wind: true }).expect("fits").fit;
+        assert_relative_eq!(f.intercept, 0.4, epsilon = 1e-10);
+        assert_relative_eq!(f.rate_coef, -0.6, epsilon = 1e-10);
+        assert_relative_eq!(f.wind_coef, -0.9, epsilon = 1e-10);
+        assert_relative_eq!(f.amplitude_coef, 0.2, epsilon = 1e-10);
+        assert!(f.residual_std < 1e-10);
+        assert_relative_eq!(f.predict_ln_in(0.5, 2.0, 0.7), 0.4 - 0.3 - 0.9 * 0.7f64.ln() + 0.2 * 2.0f64.ln(), epsilon = 1e-10);
+        let p = f.to_params();
+        assert!(p.use_wind && p.wind_coef == f.wind_coef);
+        let g = fit_model(&v, Model { amplitude: true, wind: false }).expect("fits").fit;
+        assert!(g.residual_std > 0.01 && g.wind_coef == 0.0);
+        let mut bad = v.clone();
+        bad[3].wind_speed = f64::NAN;
+        assert!(matches!(fit_model(&bad, Model { amplitude: false, wind: true }), Err(PlumeError::BadPoint { index: 3, field: "wind_speed", .. })));
     }
 
     #[test]

@@ -1,5 +1,5 @@
 //! One chemical channel from conditioned samples to window bins: grid, band-pass, clean-air
-//! noise, bouts with their threshold, presence, and the per-step bins.
+//! noise, bouts with their threshold, odor time, and the per-step bins.
 //!
 //! A channel is *ready* once its bout threshold is known (at once for an absolute threshold,
 //! after the clean-air learning for a noise-relative one); only ready time counts as valid
@@ -10,7 +10,7 @@ use crate::bouts::{Bout, BoutTracker};
 use crate::chain::BoutChain;
 use crate::grid::{Grid, GridEvent};
 use crate::noise::NoiseLearner;
-use crate::params::{Params, PresenceMode, ThresholdMode};
+use crate::params::{Params, OdorTimeRule, ThresholdMode};
 use crate::window::{BinRing, Features};
 use sillage_core::Nanos;
 
@@ -42,8 +42,8 @@ struct Pipeline {
     mode: ThresholdMode,
     noise_factor: f64,
     positive_peak: bool,
-    presence: PresenceMode,
-    presence_level: f64,
+    odor_time: OdorTimeRule,
+    odor_level: f64,
     dt: f64,
     ring: BinRing,
     counts: ChannelCounts,
@@ -69,14 +69,14 @@ impl Pipeline {
         let bout = self.tracker.step(t, e);
         let Some(threshold) = self.threshold else { return };
         self.ring.open.valid += self.dt;
-        if self.presence == PresenceMode::Level && x > self.presence_level {
+        if self.odor_time == OdorTimeRule::AboveLevel && x > self.odor_level {
             self.ring.open.presence += self.dt;
         }
         if let Some(b) = bout {
             if b.amplitude >= threshold && (b.peak_value > 0.0 || !self.positive_peak) {
                 self.ring.open.bouts += 1;
                 self.ring.open.amplitude_sum += b.amplitude;
-                if self.presence == PresenceMode::Bouts {
+                if self.odor_time == OdorTimeRule::RisePhases {
                     self.ring.open.presence += (b.peak - b.rise_start) as f64 * 1e-9;
                 }
                 self.counts.bouts += 1;
@@ -117,8 +117,8 @@ impl Channel {
                 mode: p.bouts.threshold_mode,
                 noise_factor: p.bouts.noise_factor,
                 positive_peak: p.bouts.positive_peak,
-                presence: p.features.presence,
-                presence_level: p.features.presence_level,
+                odor_time: p.features.odor_time,
+                odor_level: p.features.odor_level,
                 dt,
                 ring: BinRing::new(bins),
                 counts: ChannelCounts::default(),

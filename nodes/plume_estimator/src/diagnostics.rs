@@ -32,13 +32,18 @@ fn opt(v: Option<f64>) -> String {
     v.map_or_else(|| "unknown".to_string(), |x| x.to_string())
 }
 
-fn feature_values(f: &Features) -> Vec<(&'static str, String)> {
+/// `cv_window`: the counting time of one sub-window (`features.rate_cv_window` times the
+/// channels pooled) [s], for the CV a Poisson train of the same rate
+/// would show (`1 / sqrt(rate * cv_window)`): a `bout_rate_cv` near it is counting noise.
+fn feature_values(f: &Features, cv_window: f64) -> Vec<(&'static str, String)> {
+    let poisson_cv = 1.0 / (f.bout_rate * cv_window).sqrt();
     vec![
         ("bouts", f.bouts.to_string()),
         ("bout_rate_hz", f.bout_rate.to_string()),
         ("bout_amplitude", f.bout_amplitude.to_string()),
-        ("intermittency", f.intermittency.to_string()),
-        ("edge_index", f.edge_index.to_string()),
+        ("odor_time_fraction", f.odor_time_fraction.to_string()),
+        ("bout_rate_cv", f.bout_rate_cv.to_string()),
+        ("bout_rate_cv_poisson", poisson_cv.to_string()),
         ("std_over_mean", f.std_over_mean.to_string()),
         ("coverage", f.coverage.to_string()),
         ("valid_time_s", f.valid.to_string()),
@@ -61,7 +66,7 @@ pub fn report(n: &PlumeEstimator, now: Nanos, out: &mut Vec<DiagnosticStatus>) {
         } else {
             (OK, format!("{} bouts, {:.3} Hz", ch.features.bouts, ch.features.bout_rate))
         };
-        let mut v = feature_values(&ch.features);
+        let mut v = feature_values(&ch.features, p.features.rate_cv_window);
         v.extend([
             ("threshold", opt(ch.threshold())),
             ("noise_sigma", opt(ch.noise())),
@@ -156,7 +161,8 @@ fn features(n: &PlumeEstimator, out: &mut Vec<DiagnosticStatus>) {
     } else {
         (WARN, format!("too little valid data ({:.0} % of the window): rates are NaN", 100.0 * f.coverage))
     };
-    let mut v = feature_values(f);
+    let pooled = n.channels().iter().filter(|c| c.features.valid > 0.0).count().max(1) as f64;
+    let mut v = feature_values(f, p.features.rate_cv_window * pooled);
     v.extend([
         ("window_s", p.features.window.to_string()),
         ("combine", "pooled: sums over channels before dividing; bouts = per-channel mean".to_string()),

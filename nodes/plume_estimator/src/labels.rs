@@ -4,7 +4,8 @@
 //!
 //! CSV: comma-separated, a header row naming the columns (any order, extra columns ignored),
 //! `#` starts a comment line, blank lines are skipped.
-//! - features: `bout_rate` [Hz], `distance` [m], optionally `bout_amplitude`;
+//! - features: `bout_rate` [Hz], `distance` [m], optionally `bout_amplitude` and
+//!   `wind_speed` [m/s] (the mean true wind speed over the window);
 //! - truth: `distance` [m] and either `time` [s on the recording's log-time clock, e.g. Unix
 //!   time] or `elapsed` [s since the recording's first message].
 //!
@@ -71,19 +72,17 @@ impl Table {
 }
 
 /// Calibration points from a features CSV (`bout_rate`, `distance`, optional
-/// `bout_amplitude`; a missing amplitude is NaN). Values are checked by the fit, which names
+/// `bout_amplitude` and `wind_speed`; a missing one is NaN). Values are checked by the fit, which names
 /// the point; the line of point `i` is `lines[i]`.
 pub fn parse_features_csv(text: &str, file: &str) -> Result<(Vec<CalibrationPoint>, Vec<usize>), PlumeError> {
     let t = parse_table(text, file)?;
     let (r, d) = (t.require("bout_rate")?, t.require("distance")?);
-    let a = t.column("bout_amplitude");
+    let (a, w) = (t.column("bout_amplitude"), t.column("wind_speed"));
     let mut points = Vec::with_capacity(t.rows.len());
     for row in &t.rows {
-        let bout_amplitude = match a {
-            Some(a) => t.number(row, a)?,
-            None => f64::NAN,
-        };
-        points.push(CalibrationPoint { bout_rate: t.number(row, r)?, bout_amplitude, distance: t.number(row, d)? });
+        let optional = |c: Option<usize>| c.map_or(Ok(f64::NAN), |c| t.number(row, c));
+        let (bout_amplitude, wind_speed) = (optional(a)?, optional(w)?);
+        points.push(CalibrationPoint { bout_rate: t.number(row, r)?, bout_amplitude, distance: t.number(row, d)?, wind_speed });
     }
     Ok((points, t.rows.iter().map(|(l, _)| *l).collect()))
 }
@@ -204,11 +203,17 @@ pub struct LabelCounts {
 
 /// Labels `features` (in publication order) with `truth`.
 pub fn label_windows(features: &[PlumeFeatures], truth: &Truth, o: &LabelOptions) -> (Vec<Labelled>, LabelCounts) {
+    label_windows_in_wind(features, &[], truth, o)
+}
+
+/// [`label_windows`] with the mean true wind speed of each window (`wind[i]` for
+/// `features[i]` [m/s]; missing or `None`: NaN, which a fit with the wind refuses by name).
+pub fn label_windows_in_wind(features: &[PlumeFeatures], wind: &[Option<f64>], truth: &Truth, o: &LabelOptions) -> (Vec<Labelled>, LabelCounts) {
     let w = sillage_core::time::nanos(o.window);
     let mut counts = LabelCounts::default();
     let mut out = Vec::new();
     let mut last_kept: Option<Nanos> = None;
-    for f in features {
+    for (i, f) in features.iter().enumerate() {
         counts.windows += 1;
         let stamp = f.header.stamp.to_nanos();
         if !o.overlapping && last_kept.is_some_and(|k| stamp - k < w) {
@@ -230,7 +235,8 @@ pub fn label_windows(features: &[PlumeFeatures], truth: &Truth, o: &LabelOptions
             continue;
         }
         last_kept = Some(stamp);
-        out.push(Labelled { stamp, point: CalibrationPoint { bout_rate: f.bout_rate, bout_amplitude: f.bout_amplitude, distance: mean } });
+        let wind_speed = wind.get(i).copied().flatten().unwrap_or(f64::NAN);
+        out.push(Labelled { stamp, point: CalibrationPoint { bout_rate: f.bout_rate, bout_amplitude: f.bout_amplitude, distance: mean, wind_speed } });
     }
     (out, counts)
 }

@@ -23,6 +23,7 @@ pub mod labels;
 pub mod node;
 pub mod noise;
 pub mod params;
+pub mod wind;
 pub mod window;
 
 pub use error::PlumeError;

@@ -1,5 +1,7 @@
-//! The plume estimator node core: `chem` (ChemSample) in, `plume_features` (PlumeFeatures)
-//! out every `features.step`, diagnostics "plume_estimator: <part>".
+//! The plume estimator node core: `chem` (ChemSample) in, and optionally `wind`
+//! (Vector3Stamped) and `odom` (Odometry) for the distance model's wind covariate (see
+//! [`crate::wind`]); `plume_features` (PlumeFeatures) out every `features.step`, diagnostics
+//! "plume_estimator: <part>".
 //!
 //! Per ChemSample, in order (each rejection is counted and diagnosed, never a panic):
 //! 1. a stamp of 0 (unset) is replaced by the receive time;
@@ -27,12 +29,19 @@ use crate::error::PlumeError;
 use crate::grid::period_ns;
 use crate::params::{design_key, multiple, Params};
 use crate::window::{Features, Geometry, Pool};
-use sillage_core::msg::{ChemSample, DiagnosticStatus, Header, PlumeFeatures};
+use sillage_core::msg::{ChemSample, DiagnosticStatus, Header, Odometry, PlumeFeatures, Vector3Stamped};
 use sillage_core::params::{self, ParamError};
 use sillage_core::{Msg, Nanos, NodeCore, Outbox, Port, Qos};
 
 /// Intervals measured before the grid rate is fixed (`input.sample_rate = 0`).
 pub const RATE_PROBE_INTERVALS: usize = 8;
+
+/// Input index of `chem`.
+pub const IN_CHEM: usize = 0;
+/// Input index of `wind` (optional: only the wind covariate uses it).
+pub const IN_WIND: usize = 1;
+/// Input index of `odom` (optional: compensates a relative wind).
+pub const IN_ODOM: usize = 2;
 
 /// Input counters (cumulative since start).
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
@@ -100,6 +109,7 @@ pub struct PlumeEstimator {
     last: Option<Published>,
     reject_history: Vec<u64>,
     reject_head: usize,
+    wind: crate::wind::WindSpeed,
 }
 
 impl PlumeEstimator {
@@ -109,7 +119,7 @@ impl PlumeEstimator {
         params.validate()?;
         let f = &params.features;
         let bins = multiple(f.window, f.step).unwrap_or(1);
-        let sub_bins = multiple(f.sub_window, f.step).unwrap_or(1);
+        let sub_bins = multiple(f.rate_cv_window, f.step).unwrap_or(1);
         let geometry = Geometry { window: f.window, sub_bins, subs: bins / sub_bins, min_coverage: f.min_coverage };
         let mut core = PlumeEstimator {
             geometry,
@@ -129,6 +139,7 @@ impl PlumeEstimator {
             last: None,
             reject_history: vec![0; bins],
             reject_head: 0,
+            wind: crate::wind::WindSpeed::new(params.wind.clone(), f.window),
             params,
         };
         if core.params.input.sample_rate > 0.0 {
@@ -318,7 +329,9 @@ impl PlumeEstimator {
             ch.features = pool.add(ch.ring(), &self.geometry);
         }
         let combined = pool.features(&self.geometry);
-        let (distance, distance_sigma) = crate::distance::estimate(&self.params.distance, combined.bout_rate, combined.bout_amplitude);
+        let wind_speed = self.wind.mean(now);
+        let (distance, distance_sigma) =
+            crate::distance::estimate(&self.params.distance, combined.bout_rate, combined.bout_amplitude, combined.valid, wind_speed);
         self.reject_history[self.reject_head] = self.counts.rejected();
         self.reject_head = (self.reject_head + 1) % self.reject_history.len();
         self.last = Some(Published { stamp: now, combined, distance, distance_sigma });
@@ -330,10 +343,10 @@ impl PlumeEstimator {
                 bouts: combined.bouts,
                 bout_rate: combined.bout_rate,
                 bout_amplitude: combined.bout_amplitude,
-                intermittency: combined.intermittency,
+                intermittency: combined.odor_time_fraction,
                 distance,
                 distance_sigma,
-                edge_index: combined.edge_index,
+                edge_index: combined.bout_rate_cv,
             },
         );
     }
@@ -344,7 +357,11 @@ impl NodeCore for PlumeEstimator {
         crate::NODE_NAME
     }
     fn inputs(&self) -> Vec<Port> {
-        vec![Port::of::<ChemSample>("chem", Qos::SensorData)]
+        vec![
+            Port::of::<ChemSample>("chem", Qos::SensorData),
+            Port::of::<Vector3Stamped>("wind", Qos::SensorData),
+            Port::of::<Odometry>("odom", Qos::SensorData),
+        ]
     }
     fn outputs(&self) -> Vec<Port> {
         vec![Port::of::<PlumeFeatures>("plume_features", Qos::Reliable)]
@@ -353,8 +370,13 @@ impl NodeCore for PlumeEstimator {
         vec![sillage_core::time::nanos(self.params.features.step)]
     }
     fn on_message(&mut self, now: Nanos, input: usize, msg: &Msg, _out: &mut Outbox) {
-        if let (0, Msg::ChemSample(m)) = (input, msg) {
-            self.on_chem(now, m);
+        match (input, msg) {
+            (IN_CHEM, Msg::ChemSample(m)) => self.on_chem(now, m),
+            (IN_WIND, Msg::Vector3Stamped(m)) => {
+                self.wind.on_wind(now, m);
+            }
+            (IN_ODOM, Msg::Odometry(m)) => self.wind.on_odom(now, m),
+            _ => {} // the executors deliver only the declared types
         }
     }
     fn on_timer(&mut self, now: Nanos, timer: usize, out: &mut Outbox) {
@@ -387,6 +409,9 @@ impl NodeCore for PlumeEstimator {
             return Ok(());
         }
         let mut fresh = PlumeEstimator::new(next)?;
+        if fresh.params.wind == self.params.wind && fresh.params.features.window == self.params.features.window {
+            fresh.wind = self.wind.clone();
+        }
         fresh.counts = self.counts;
         fresh.reject_history.fill(self.counts.rejected());
         fresh.frame_id = std::mem::take(&mut self.frame_id);

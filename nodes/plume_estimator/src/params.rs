@@ -22,6 +22,8 @@ pub struct Params {
     pub features: FeatureParams,
     /// Distance model (fitted by `sillage calibrate`).
     pub distance: DistanceParams,
+    /// The optional wind and odometry inputs (the distance model's wind covariate).
+    pub wind: WindParams,
     /// Channel conditioning, shared with the event encoder (see
     /// `sillage_event_encoder::conditioning`): transform to "larger = more gas", calibration,
     /// baseline removal, rail and stuck detection. Node-wide (no per-channel overrides here).
@@ -156,37 +158,40 @@ impl Default for BoutParams {
     }
 }
 
-/// How "odor present" is decided for the intermittency.
+/// What counts as odor time for the odor-time fraction (the PlumeFeatures `intermittency`
+/// field carries that fraction).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
-pub enum PresenceMode {
-    /// Present while the signal rises during an accepted bout (from where its smoothed
-    /// derivative turns positive to the peak): a MOX sensor's response rises only while fresh
-    /// gas reaches it, its slow recovery says nothing about presence.
-    Bouts,
-    /// Present while the conditioned (baseline-free) signal exceeds `features.presence_level`.
-    Level,
+pub enum OdorTimeRule {
+    /// The rise phases of accepted bouts (from where the smoothed derivative turns positive
+    /// to the peak): a MOX sensor's response rises only while fresh gas reaches it, its slow
+    /// recovery says nothing about presence. The fraction is then the share of time in bout
+    /// rises, not the intermittency of the concentration.
+    RisePhases,
+    /// The conditioned (baseline-free) signal exceeds `features.odor_level` (a level
+    /// intermittency of the sensor response).
+    AboveLevel,
 }
 
 /// Windowed features.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
 pub struct FeatureParams {
-    /// Window length [s]; a whole multiple of `step` and of `sub_window`. Project default.
+    /// Window length [s]; a whole multiple of `step` and of `rate_cv_window`. Project default.
     pub window: f64,
     /// Output period [s] (> 0): a PlumeFeatures message every `step`.
     pub step: f64,
-    /// Sub-window length for the bout-count variability (edge index) [s]; a whole multiple
-    /// of `step`, at most half the window.
-    pub sub_window: f64,
+    /// Sub-window length for the coefficient of variation of the bout rate (published as
+    /// `edge_index`) [s]; a whole multiple of `step`, at most half the window.
+    pub rate_cv_window: f64,
     /// Smallest fraction of the window with valid data for the rates to be published
-    /// (0 < x <= 1); below it the rates, intermittency and distance are NaN.
+    /// (0 < x <= 1); below it the rates, odor-time fraction and distance are NaN.
     pub min_coverage: f64,
-    /// `bouts` or `level`.
-    pub presence: PresenceMode,
-    /// Level above which odor counts as present for `level` [conditioned signal units] (> 0
-    /// when `presence` is `level`).
-    pub presence_level: f64,
+    /// What counts as odor time: `rise_phases` or `above_level`.
+    pub odor_time: OdorTimeRule,
+    /// Level above which the signal counts as odor for `above_level` [conditioned signal
+    /// units] (> 0 when `odor_time` is `above_level`).
+    pub odor_level: f64,
 }
 
 impl Default for FeatureParams {
@@ -194,10 +199,10 @@ impl Default for FeatureParams {
         FeatureParams {
             window: 20.0,
             step: 0.5,
-            sub_window: 4.0,
+            rate_cv_window: 4.0,
             min_coverage: 0.5,
-            presence: PresenceMode::Bouts,
-            presence_level: 0.0,
+            odor_time: OdorTimeRule::RisePhases,
+            odor_level: 0.0,
         }
     }
 }
@@ -217,9 +222,48 @@ pub struct DistanceParams {
     pub use_amplitude: bool,
     /// Coefficient of ln(bout amplitude) [ln m per ln(signal units / s)].
     pub amplitude_coef: f64,
-    /// Standard deviation of the calibration residuals [ln m] (>= 0); `distance_sigma =
-    /// distance * residual_std` (first-order propagation).
+    /// Whether the model uses the mean true wind speed over the window (needs `wind`).
+    pub use_wind: bool,
+    /// Coefficient of ln(wind speed / (1 m/s)) [ln m per ln(m/s)].
+    pub wind_coef: f64,
+    /// Standard deviation of the calibration residuals [ln m] (>= 0). `distance_sigma =
+    /// distance * sqrt(residual_std^2 + rate_coef^2 * bout_rate / T)` with T the pooled valid
+    /// time of the window: the residual and the Poisson counting error of the rate,
+    /// propagated to first order.
     pub residual_std: f64,
+}
+
+/// The optional wind input (for the distance model's wind covariate). Relative vs true wind,
+/// lever arm and still air mean what `sillage_air` says, as in every node.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct WindParams {
+    /// Below this mean true wind speed the air is still and the wind model gives no distance
+    /// [m/s] (> 0).
+    pub min_speed: f64,
+    /// A base_link wind message is the relative wind at the moving anemometer (true wind =
+    /// relative + anemometer velocity from odometry); false: it is already the true wind.
+    pub relative: bool,
+    /// Anemometer x in base_link [m].
+    pub anemometer_x: f64,
+    /// Anemometer y in base_link [m].
+    pub anemometer_y: f64,
+    /// An odometry message is valid this long for the compensation [s] (> 0).
+    pub odom_timeout: f64,
+}
+
+impl Default for WindParams {
+    fn default() -> Self {
+        let a = sillage_air::AirParams::default();
+        WindParams { min_speed: a.min_speed, relative: a.relative, anemometer_x: a.anemometer_x, anemometer_y: a.anemometer_y, odom_timeout: 0.5 }
+    }
+}
+
+impl WindParams {
+    /// The shared air parameters among these.
+    pub fn air(&self) -> sillage_air::AirParams {
+        sillage_air::AirParams { relative: self.relative, anemometer_x: self.anemometer_x, anemometer_y: self.anemometer_y, min_speed: self.min_speed }
+    }
 }
 
 impl Default for DistanceParams {
@@ -230,6 +274,8 @@ impl Default for DistanceParams {
             rate_coef: 0.0,
             use_amplitude: false,
             amplitude_coef: 0.0,
+            use_wind: false,
+            wind_coef: 0.0,
             residual_std: 0.0,
         }
     }
@@ -279,19 +325,19 @@ impl NodeParams for Params {
         let bins = multiple(w.window, w.step);
         ensure(bins.is_some(), "features.window", format!("must be a whole multiple of features.step ({} s)", w.step))?;
         ensure(bins.is_some_and(|n| n <= 100_000), "features.window", "must be at most 100000 steps")?;
-        ensure(positive(w.sub_window), "features.sub_window", "must be > 0 [s]")?;
-        ensure(multiple(w.sub_window, w.step).is_some(), "features.sub_window", format!("must be a whole multiple of features.step ({} s)", w.step))?;
+        ensure(positive(w.rate_cv_window), "features.rate_cv_window", "must be > 0 [s]")?;
+        ensure(multiple(w.rate_cv_window, w.step).is_some(), "features.rate_cv_window", format!("must be a whole multiple of features.step ({} s)", w.step))?;
         ensure(
-            multiple(w.window, w.sub_window).is_some_and(|m| m >= 2),
-            "features.sub_window",
+            multiple(w.window, w.rate_cv_window).is_some_and(|m| m >= 2),
+            "features.rate_cv_window",
             format!("must divide features.window ({} s) into at least 2 parts", w.window),
         )?;
         ensure(w.min_coverage.is_finite() && w.min_coverage > 0.0 && w.min_coverage <= 1.0, "features.min_coverage", "must be in (0, 1]")?;
-        ensure(w.presence_level.is_finite() && w.presence_level >= 0.0, "features.presence_level", "must be >= 0")?;
+        ensure(w.odor_level.is_finite() && w.odor_level >= 0.0, "features.odor_level", "must be >= 0")?;
         ensure(
-            w.presence != PresenceMode::Level || w.presence_level > 0.0,
-            "features.presence_level",
-            "must be > 0 when features.presence is 'level'",
+            w.odor_time != OdorTimeRule::AboveLevel || w.odor_level > 0.0,
+            "features.odor_level",
+            "must be > 0 when features.odor_time is 'above_level'",
         )?;
 
         self.conditioning.check("conditioning")?;
@@ -300,6 +346,9 @@ impl NodeParams for Params {
         ensure(d.intercept.is_finite(), "distance.intercept", "must be finite [ln m]")?;
         ensure(d.rate_coef.is_finite(), "distance.rate_coef", "must be finite [ln m / Hz]")?;
         ensure(d.amplitude_coef.is_finite(), "distance.amplitude_coef", "must be finite")?;
+        ensure(d.wind_coef.is_finite(), "distance.wind_coef", "must be finite [ln m / ln(m/s)]")?;
+        self.wind.air().check("wind")?;
+        ensure(positive(self.wind.odom_timeout), "wind.odom_timeout", "must be > 0 [s]")?;
         ensure(d.residual_std.is_finite() && d.residual_std >= 0.0, "distance.residual_std", "must be >= 0 [ln m]")?;
 
         if i.sample_rate > 0.0 {

@@ -13,8 +13,9 @@
 //! - `bouts`: accepted bouts whose peak fell in the window;
 //! - `bout_rate` = bouts / valid time [Hz];
 //! - `bout_amplitude`: mean amplitude of those bouts [signal units / s] (NaN without bouts);
-//! - `intermittency` = time with odor present / valid time (0..1);
-//! - `edge_index`: coefficient of variation (population std / mean) of the bout rates of the
+//! - `odor_time_fraction` = odor time / valid time (0..1), published in the `intermittency`
+//!   field: with `odor_time: rise_phases` it is the share of time in bout rise phases;
+//! - `bout_rate_cv` (published in the `edge_index` field): coefficient of variation (population std / mean) of the bout rates of the
 //!   sub-windows with at least `min_coverage` valid data; NaN with fewer than 2 such
 //!   sub-windows or no bouts. The 2016 bout work found the variance of bout counts to indicate
 //!   the crosswind offset from the plume centreline: near the edge contact comes in clusters,
@@ -31,7 +32,7 @@
 //! valid time, presence time and sub-window counts are summed before dividing, so the pooled
 //! rate is total bouts / total valid channel-time (the maximum-likelihood rate of channels
 //! sharing one Poisson rate; the per-channel mean when coverage is equal), the amplitude the
-//! mean over all bouts, the intermittency the pooled fraction, the edge index the CV of the
+//! mean over all bouts, the odor-time fraction the pooled fraction, the bout-rate CV the CV of the
 //! pooled sub-window rates; `bouts` is the per-channel mean count rounded to an integer;
 //! `std_over_mean` the mean of the channels' finite values.
 
@@ -126,9 +127,9 @@ pub struct Features {
     /// Mean bout amplitude [signal units / s]; NaN without bouts or below `min_coverage`.
     pub bout_amplitude: f64,
     /// Fraction of valid time with odor present; NaN below `min_coverage`.
-    pub intermittency: f64,
+    pub odor_time_fraction: f64,
     /// Coefficient of variation of sub-window bout rates; NaN when unknown.
-    pub edge_index: f64,
+    pub bout_rate_cv: f64,
     /// std / mean of the transformed signal; NaN unless the mean is > 0.
     pub std_over_mean: f64,
 }
@@ -141,8 +142,8 @@ impl Features {
         coverage: 0.0,
         bout_rate: f64::NAN,
         bout_amplitude: f64::NAN,
-        intermittency: f64::NAN,
-        edge_index: f64::NAN,
+        odor_time_fraction: f64::NAN,
+        bout_rate_cv: f64::NAN,
         std_over_mean: f64::NAN,
     };
 }
@@ -239,8 +240,8 @@ impl Pool {
             coverage,
             bout_rate: nan_unless(ok, f64::from(t.bouts) / t.valid),
             bout_amplitude: nan_unless(ok && t.bouts > 0, t.amplitude_sum / f64::from(t.bouts)),
-            intermittency: nan_unless(ok, (t.presence / t.valid).clamp(0.0, 1.0)),
-            edge_index: coefficient_of_variation(&rates[..m]),
+            odor_time_fraction: nan_unless(ok, (t.presence / t.valid).clamp(0.0, 1.0)),
+            bout_rate_cv: coefficient_of_variation(&rates[..m]),
             std_over_mean: if self.som_n > 0 { self.som_sum / self.som_n as f64 } else { f64::NAN },
         }
     }
@@ -306,12 +307,12 @@ mod tests {
         assert_eq!(f.bouts, 6);
         assert_relative_eq!(f.bout_rate, 1.5);
         assert_relative_eq!(f.bout_amplitude, 2.0);
-        assert_relative_eq!(f.intermittency, 0.5);
+        assert_relative_eq!(f.odor_time_fraction, 0.5);
         // Sub-window rates 4/2 = 2 and 2/2 = 1: mean 1.5, population std 0.5.
-        assert_relative_eq!(f.edge_index, 0.5 / 1.5);
+        assert_relative_eq!(f.bout_rate_cv, 0.5 / 1.5);
         assert!(f.std_over_mean.is_nan(), "no signal sums");
         let again = pool.features(&geometry());
-        assert_eq!((again.bouts, again.bout_rate, again.edge_index), (f.bouts, f.bout_rate, f.edge_index));
+        assert_eq!((again.bouts, again.bout_rate, again.bout_rate_cv), (f.bouts, f.bout_rate, f.bout_rate_cv));
     }
 
     #[test]
@@ -328,17 +329,17 @@ mod tests {
         let p = pool.features(&g);
         assert_eq!(p.bouts, 5); // (8 + 2) / 2
         assert_relative_eq!(p.bout_rate, 10.0 / 6.0);
-        assert_relative_eq!(p.intermittency, 2.0 / 6.0);
+        assert_relative_eq!(p.odor_time_fraction, 2.0 / 6.0);
         assert_relative_eq!(p.coverage, 0.75);
         // Pooled sub-windows: 4 bouts / 2 s, then 6 bouts / 4 s.
-        assert!(coefficient_of_variation(&[2.0, 1.5]) == p.edge_index);
+        assert!(coefficient_of_variation(&[2.0, 1.5]) == p.bout_rate_cv);
     }
 
     #[test]
     fn low_coverage_gives_nan_rates_and_std_over_mean_needs_a_positive_mean() {
         let r = ring(&[(1, 0.0, 0.2), (0, 0.0, 0.0), (0, 0.0, 0.0), (0, 0.0, 0.0)]);
         let f = Pool::new().add(&r, &geometry());
-        assert!(f.bout_rate.is_nan() && f.intermittency.is_nan() && f.bout_amplitude.is_nan());
+        assert!(f.bout_rate.is_nan() && f.odor_time_fraction.is_nan() && f.bout_amplitude.is_nan());
         let mut s = BinRing::new(1);
         for v in [1.0, 3.0, 1.0, 3.0] {
             s.add_signal(v);

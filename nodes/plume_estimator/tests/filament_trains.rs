@@ -86,6 +86,7 @@ fn calibrated_distance_estimates_fresh_recordings() {
                 bout_rate: f.bout_rate,
                 bout_amplitude: f.bout_amplitude,
                 distance: d,
+                wind_speed: f64::NAN,
             }));
         }
     }

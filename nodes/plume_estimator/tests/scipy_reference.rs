@@ -213,7 +213,7 @@ fn calibration_equals_numpy_least_squares_and_explicit_loo() {
         .iter()
         .map(|p| {
             let v = arr(p);
-            CalibrationPoint { bout_rate: v[0], bout_amplitude: v[1], distance: v[2] }
+            CalibrationPoint { bout_rate: v[0], bout_amplitude: v[1], distance: v[2], wind_speed: f64::NAN }
         })
         .collect();
     for (key, use_amplitude) in [("rate_only", false), ("with_amplitude", true)] {

@@ -11,7 +11,7 @@
 //!   0.57 s earlier.
 //! - Sensors: resistance [ohm], Rs = R0 / g with g following (1 + C/C0)^0.5 through an
 //!   asymmetric first-order lag (tau 1.8 s rising, 11.1 s falling), C0 = 5 ppm, plus 0.2 %
-//!   noise. Published at 50 Hz on /chem; wind (apparent, in base_link) at 10 Hz on /wind;
+//!   noise. Published at 50 Hz on /chem; wind (relative to the robot, in base_link) at 10 Hz on /wind;
 //!   odometry at 50 Hz on /odom; /e_stop (false) at 1 Hz.
 //!
 //! All values are made up; the generator is seeded and deterministic.
