@@ -23,6 +23,7 @@ FIXTURES=(
     "tests/refs/bearing_xcorr.py tests/fixtures/bearing/xcorr_cases.json"
     "tests/refs/bearing_planewave.py tests/fixtures/bearing/planewave_cases.json"
     "tests/refs/wilson_ci.py tests/fixtures/stats/wilson_cases.json"
+    "tests/refs/mapper_refs.py tests/fixtures/mapper/mapper_refs.json"
 )
 
 python="$(bash "$here/venv.sh")"

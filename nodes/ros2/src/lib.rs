@@ -46,7 +46,8 @@ pub const BINARIES: &[(&str, &str)] = &[
     ("sillage_bearing_decoder", "bearing_decoder"),
     ("sillage_plume_estimator", "plume_estimator"),
     ("sillage_arbiter", "arbiter"),
-    ("sillage_stack", "event_encoder, bearing_decoder, plume_estimator, arbiter"),
+    ("sillage_source_mapper", "source_mapper"),
+    ("sillage_stack", "event_encoder, bearing_decoder, plume_estimator, arbiter, source_mapper"),
     ("sillage_world", "sim_world (the simulated world: chem, wind, odom, scan, /clock; cmd_vel in)"),
 ];
 

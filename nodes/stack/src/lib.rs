@@ -19,7 +19,7 @@ pub enum StackError {
     #[error(transparent)]
     Graph(#[from] ExecutorError),
     /// An unknown node kind was named.
-    #[error("unknown node '{0}' (known: event_encoder, bearing_decoder, plume_estimator, arbiter)")]
+    #[error("unknown node '{0}' (known: event_encoder, bearing_decoder, plume_estimator, arbiter, source_mapper)")]
     UnknownNode(String),
 }
 
@@ -34,12 +34,14 @@ pub enum NodeKind {
     PlumeEstimator,
     /// The behaviour state machine with its safety guard.
     Arbiter,
+    /// The grid posterior over the source position.
+    SourceMapper,
 }
 
 impl NodeKind {
     /// Every kind, in graph order (upstream first).
-    pub const ALL: [NodeKind; 4] =
-        [NodeKind::EventEncoder, NodeKind::BearingDecoder, NodeKind::PlumeEstimator, NodeKind::Arbiter];
+    pub const ALL: [NodeKind; 5] =
+        [NodeKind::EventEncoder, NodeKind::BearingDecoder, NodeKind::PlumeEstimator, NodeKind::Arbiter, NodeKind::SourceMapper];
 
     /// The default ROS node name.
     pub fn name(self) -> &'static str {
@@ -48,6 +50,7 @@ impl NodeKind {
             NodeKind::BearingDecoder => sillage_bearing_decoder::NODE_NAME,
             NodeKind::PlumeEstimator => sillage_plume_estimator::NODE_NAME,
             NodeKind::Arbiter => sillage_arbiter::NODE_NAME,
+            NodeKind::SourceMapper => sillage_source_mapper::NODE_NAME,
         }
     }
 
@@ -63,6 +66,7 @@ impl NodeKind {
             NodeKind::BearingDecoder => params::to_value(&sillage_bearing_decoder::Params::default()),
             NodeKind::PlumeEstimator => params::to_value(&sillage_plume_estimator::Params::default()),
             NodeKind::Arbiter => params::to_value(&sillage_arbiter::Params::default()),
+            NodeKind::SourceMapper => params::to_value(&sillage_source_mapper::Params::default()),
         }
     }
 
@@ -86,6 +90,7 @@ impl NodeKind {
             NodeKind::BearingDecoder => make(text, file, fqn, sillage_bearing_decoder::BearingDecoder::new),
             NodeKind::PlumeEstimator => make(text, file, fqn, sillage_plume_estimator::PlumeEstimator::new),
             NodeKind::Arbiter => make(text, file, fqn, sillage_arbiter::Arbiter::new),
+            NodeKind::SourceMapper => make(text, file, fqn, sillage_source_mapper::SourceMapper::new),
         }
     }
 
@@ -157,7 +162,7 @@ mod tests {
     #[test]
     fn default_stack_wires_and_names_bad_keys() {
         let ex = build(&StackConfig { namespace: "/r1".into(), ..Default::default() }).expect("builds");
-        assert_eq!(ex.node_names(), vec!["/r1/event_encoder", "/r1/bearing_decoder", "/r1/plume_estimator", "/r1/arbiter"]);
+        assert_eq!(ex.node_names(), vec!["/r1/event_encoder", "/r1/bearing_decoder", "/r1/plume_estimator", "/r1/arbiter", "/r1/source_mapper"]);
         assert_eq!(ex.topic_type("/r1/chem"), Some("sillage_msgs/msg/ChemSample"));
         let bad = "arbiter:\n  ros__parameters:\n    no_such_key: 1.0\n";
         let e = NodeKind::Arbiter.build_from_str(Some(bad), "p.yaml", "/arbiter").err().expect("refused");
