@@ -18,6 +18,7 @@ cd "$root"
 FIXTURES=(
     "tests/refs/make_cdr_fixtures.py tests/fixtures/cdr/cdr_cases.json"
     "tests/refs/world_refs.py nodes/world/tests/fixtures/world_refs.json"
+    "tests/refs/world_field_refs.py nodes/world/tests/fixtures/world_field_refs.json"
     "tests/refs/plume_filters.py tests/fixtures/plume/plume_filters.json"
     "tests/refs/bag_make_fixtures.py tests/fixtures/bags/expected.jsonl"
     "tests/refs/bearing_xcorr.py tests/fixtures/bearing/xcorr_cases.json"

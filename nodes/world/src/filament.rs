@@ -11,10 +11,16 @@
 //!   the ground (z = 0 reflects), so the field above ground integrates to M per filament.
 //!   (The paper's printed form, exp(-d^2/R^2) with the same prefactor, integrates to
 //!   M / (2 sqrt 2); we keep mass, so R here is the Gaussian standard deviation.)
-//! - centre motion per step dt: p += u(p, t) dt + sqrt(2 K dt) n, n ~ N(0, I3), with K the
-//!   relative diffusivity [m^2/s]; centres reflect at z = 0.
-//! - filaments older than `max_age` or leaving the arena rectangle are dropped; above
-//!   `max_filaments` the oldest go first. Obstacles do not block filaments.
+//! - centre motion per step dt: p += u(p, t + dt/2) dt + sqrt(2 K dt) n, n ~ N(0, I3), with
+//!   u the wind at the filament's own position (explicit Euler with the mid-step time) and
+//!   K the relative diffusivity [m^2/s]; centres reflect at z = 0.
+//! - obstacles (given with [`FilamentPlume::with_walls`]) and solid arena edges reflect the
+//!   centres specularly: a centre that ends a step inside a box is mirrored back across the
+//!   face it crossed (the face of least penetration); past a solid edge it is mirrored back
+//!   inside. The gas cannot pass through them.
+//! - filaments older than `max_age` or leaving the arena through an open edge are dropped;
+//!   above `max_filaments` the oldest go first. The mass of those dropped inside the arena
+//!   is handed on ([`FilamentPlume::take_retired_mass`]) to the room background.
 //! - a filament is summed only within `CUTOFF_SIGMAS` R of the query point horizontally
 //!   (the neglected tail is below exp(-CUTOFF_SIGMAS^2 / 2) of its peak). A single query
 //!   scans the live filaments (a cheap squared-distance test each; the few sensors of a
@@ -23,6 +29,7 @@
 
 use crate::arena::Aabb;
 use crate::wind::WindField;
+use crate::wind_grid::Edge;
 use rand::Rng;
 use rand_chacha::ChaCha8Rng;
 use rand_distr::StandardNormal;
@@ -222,6 +229,9 @@ pub struct FilamentPlume {
     filaments: Vec<Filament>,
     index: CellIndex,
     time: f64,
+    obstacles: Vec<Aabb>,
+    solid: Vec<Edge>,
+    retired: f64,
 }
 
 impl FilamentPlume {
@@ -247,7 +257,23 @@ impl FilamentPlume {
             rng,
             filaments: Vec::new(),
             time: 0.0,
+            obstacles: Vec::new(),
+            solid: Vec::new(),
+            retired: 0.0,
         }
+    }
+
+    /// Makes the boxes `obstacles` and the arena edges `solid` reflect the filaments.
+    pub fn with_walls(mut self, obstacles: Vec<Aabb>, solid: Vec<Edge>) -> Self {
+        self.obstacles = obstacles;
+        self.solid = solid;
+        self
+    }
+
+    /// Mass [g] of the filaments dropped inside the arena (aged out or over the cap) since
+    /// the last call: gas still in the room that the plume no longer resolves.
+    pub fn take_retired_mass(&mut self) -> f64 {
+        std::mem::take(&mut self.retired)
     }
 
     /// Simulation time of the plume [s].
@@ -275,10 +301,18 @@ impl FilamentPlume {
         if dt <= 0.0 {
             return;
         }
-        let u = wind.velocity([0.0; 3], self.time + 0.5 * dt);
+        let t_mid = self.time + 0.5 * dt;
+        let walls = Walls {
+            bounds: &self.bounds,
+            obstacles: &self.obstacles,
+            solid: &self.solid,
+        };
         for f in self.filaments.iter_mut() {
             let k = self.sources[f.source].params.relative_diffusivity;
+            let u = wind.velocity(f.pos, t_mid);
+            let before = f.pos;
             random_walk(&mut f.pos, u, dt, k, &mut self.rng);
+            walls.reflect(before, &mut f.pos);
         }
         for (s, src) in self.sources.iter().enumerate() {
             let f = src.params.release_rate;
@@ -298,6 +332,7 @@ impl FilamentPlume {
                     src.params.relative_diffusivity,
                     &mut self.rng,
                 );
+                walls.reflect(src.position, &mut pos);
                 self.filaments.push(Filament {
                     pos,
                     birth: tr,
@@ -306,14 +341,24 @@ impl FilamentPlume {
             }
         }
         let (bounds, sources) = (&self.bounds, &self.sources);
+        let mut retired = 0.0;
         self.filaments.retain(|f| {
-            t_end - f.birth <= sources[f.source].params.max_age
-                && bounds.contains([f.pos[0], f.pos[1]])
+            let inside = bounds.contains([f.pos[0], f.pos[1]]);
+            let young = t_end - f.birth <= sources[f.source].params.max_age;
+            if inside && !young {
+                retired += sources[f.source].mass_per_filament();
+            }
+            inside && young
         });
         if self.filaments.len() > self.max_filaments {
             let excess = self.filaments.len() - self.max_filaments;
-            self.filaments.drain(..excess);
+            retired += self
+                .filaments
+                .drain(..excess)
+                .map(|f| sources[f.source].mass_per_filament())
+                .sum::<f64>();
         }
+        self.retired += retired;
         self.time = t_end;
     }
 
@@ -371,6 +416,67 @@ impl FilamentPlume {
             .iter()
             .map(|f| self.sources[f.source].mass_per_filament())
             .sum()
+    }
+}
+
+/// The surfaces that reflect filaments.
+struct Walls<'a> {
+    bounds: &'a Aabb,
+    obstacles: &'a [Aabb],
+    solid: &'a [Edge],
+}
+
+impl Walls<'_> {
+    /// Mirrors `pos` (moved from `before`) back out of any obstacle and inside solid edges.
+    fn reflect(&self, before: [f64; 3], pos: &mut [f64; 3]) {
+        let b = self.bounds;
+        for e in self.solid {
+            match e {
+                Edge::West if pos[0] < b.x_min => pos[0] = 2.0 * b.x_min - pos[0],
+                Edge::East if pos[0] > b.x_max => pos[0] = 2.0 * b.x_max - pos[0],
+                Edge::South if pos[1] < b.y_min => pos[1] = 2.0 * b.y_min - pos[1],
+                Edge::North if pos[1] > b.y_max => pos[1] = 2.0 * b.y_max - pos[1],
+                _ => {}
+            }
+        }
+        // A few passes: a mirrored point may land in a neighbouring box.
+        for _ in 0..3 {
+            let mut moved = false;
+            for o in self.obstacles {
+                if !o.contains([pos[0], pos[1]]) {
+                    continue;
+                }
+                // Penetration depth past each face the centre crossed (or could have).
+                let cands = [
+                    (before[0] <= o.x_min, pos[0] - o.x_min, 0usize),
+                    (before[0] >= o.x_max, o.x_max - pos[0], 1),
+                    (before[1] <= o.y_min, pos[1] - o.y_min, 2),
+                    (before[1] >= o.y_max, o.y_max - pos[1], 3),
+                ];
+                let crossed = cands
+                    .iter()
+                    .filter(|c| c.0)
+                    .min_by(|a, b| a.1.total_cmp(&b.1));
+                let face = match crossed {
+                    Some(c) => c.2,
+                    // Started inside (released or pushed there): leave by the nearest face.
+                    None => cands
+                        .iter()
+                        .min_by(|a, b| a.1.total_cmp(&b.1))
+                        .map_or(0, |c| c.2),
+                };
+                match face {
+                    0 => pos[0] = 2.0 * o.x_min - pos[0] - 1e-9,
+                    1 => pos[0] = 2.0 * o.x_max - pos[0] + 1e-9,
+                    2 => pos[1] = 2.0 * o.y_min - pos[1] - 1e-9,
+                    _ => pos[1] = 2.0 * o.y_max - pos[1] + 1e-9,
+                }
+                moved = true;
+            }
+            if !moved {
+                break;
+            }
+        }
     }
 }
 
@@ -494,7 +600,11 @@ mod tests {
                 // The batch path (cell index) applies the same cut-off: equal up to round-off.
                 let mut batch = Vec::new();
                 p.concentrations(std::iter::once(q), &mut batch);
-                assert!((batch[0] - fast).abs() <= 1e-12 * fast.abs(), "{q:?}: {} vs {fast}", batch[0]);
+                assert!(
+                    (batch[0] - fast).abs() <= 1e-12 * fast.abs(),
+                    "{q:?}: {} vs {fast}",
+                    batch[0]
+                );
             }
         }
         assert!(checked > 50, "only {checked} points saw the plume");
@@ -523,6 +633,38 @@ mod tests {
         // 19 m to the downwind wall at 2 m/s: only filaments younger than ~9.5 s remain.
         let n = p.filament_count();
         assert!((90..=100).contains(&n), "count {n}");
+    }
+
+    /// A box across the plume's path: no filament centre ends inside it, and the gas shows
+    /// up beside it but far less right behind it than without the box.
+    #[test]
+    fn obstacles_reflect_filaments() {
+        let wall = Aabb::new(4.0, 3.5, 4.5, 6.5);
+        let mut with = plume(10_000).with_walls(vec![wall], vec![Edge::South, Edge::North]);
+        let mut without = plume(10_000);
+        let (mut wa, mut wb) = (wind(0.6, 0.0, 6), wind(0.6, 0.0, 6));
+        let (mut behind_with, mut behind_without) = (0.0, 0.0);
+        for k in 1..=600 {
+            let t = k as f64 * 0.05;
+            wa.advance_to(t);
+            wb.advance_to(t);
+            with.step_to(&wa, t);
+            without.step_to(&wb, t);
+            assert!(with
+                .filaments
+                .iter()
+                .all(|f| !wall.contains([f.pos[0], f.pos[1]])));
+            if k > 300 {
+                behind_with += with.concentration([4.8, 5.0, 0.3]);
+                behind_without += without.concentration([4.8, 5.0, 0.3]);
+            }
+        }
+        assert!(
+            behind_with < 0.2 * behind_without,
+            "{behind_with} vs {behind_without}"
+        );
+        // Mass is kept: the filaments pile up upstream instead of vanishing.
+        assert!(with.filament_count() >= without.filament_count());
     }
 
     #[test]

@@ -1,6 +1,8 @@
-//! Physics of the simulated world for sillage: meandering wind, a turbulent filament
-//! plume and a time-averaged Gaussian plume, MOX gas sensors, an anemometer, robot
-//! kinematics, an arena with obstacles and a planar laser, and YAML scenarios.
+//! Physics of the simulated world for sillage: meandering wind (uniform, or a potential
+//! flow around the obstacles on a grid), a turbulent filament plume and a time-averaged
+//! Gaussian plume, a well-mixed room background, MOX gas sensors with unit spread and
+//! drift, an anemometer, robot kinematics, an arena with obstacles and a planar laser, and
+//! YAML scenarios.
 //!
 //! Everything is pure and deterministic: randomness comes from seeded ChaCha8 streams,
 //! time is virtual (nanoseconds), and the only I/O is [`Scenario::from_path`].
@@ -17,10 +19,12 @@ pub mod laser;
 pub mod mox;
 pub mod noise;
 pub mod robot;
+pub mod room;
 pub mod sampling;
 pub mod scenario;
 mod scenario_check;
 pub mod wind;
+pub mod wind_grid;
 pub mod world;
 
 pub use error::WorldError;

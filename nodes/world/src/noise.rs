@@ -27,6 +27,15 @@ impl ColouredNoise {
         Self { std, tau, value }
     }
 
+    /// The process that stays at zero.
+    pub fn zero() -> Self {
+        Self {
+            std: 0.0,
+            tau: 0.0,
+            value: 0.0,
+        }
+    }
+
     /// Current value.
     pub fn value(&self) -> f64 {
         self.value

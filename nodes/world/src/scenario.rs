@@ -13,7 +13,8 @@ use crate::gaussian_plume::{StabilityClass, Terrain};
 use crate::laser::LaserParams;
 use crate::mox::MoxParams;
 use crate::robot::{DriveKind, RobotLimits};
-use crate::wind::WindParams;
+use crate::room::RoomParams;
+use crate::wind::{WindGridParams, WindParams};
 use serde::Deserialize;
 use std::path::Path;
 
@@ -51,6 +52,9 @@ pub struct Scenario {
     /// Optional planar laser scanner.
     #[serde(default)]
     pub laser: Option<LaserParams>,
+    /// Closed arena: well-mixed background build-up (absent: open air, no background).
+    #[serde(default)]
+    pub room: Option<RoomParams>,
 }
 
 /// Arena rectangle and obstacles [m].
@@ -87,6 +91,24 @@ pub struct WindSpec {
     /// Meander (default: none).
     #[serde(default)]
     pub meander: MeanderSpec,
+    /// `uniform` (one wind everywhere) or `grid` (potential flow around the obstacles with
+    /// meandering corner winds). Default: `grid` with the filament plume, `uniform` with the
+    /// gaussian one (the only combination the check accepts there).
+    #[serde(default)]
+    pub field: Option<WindFieldKind>,
+    /// Options of the grid field.
+    #[serde(default)]
+    pub grid: WindGridParams,
+}
+
+/// Spatial structure of the wind.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum WindFieldKind {
+    /// The same wind everywhere (walls and obstacles do not deflect it).
+    Uniform,
+    /// Spatially varying incompressible flow on a grid.
+    Grid,
 }
 
 /// Coloured-noise meander of the wind.
@@ -176,6 +198,21 @@ pub struct ChannelSpec {
     /// Clean-air resistance of this unit [ohm] (default: sensors.mox.r0).
     #[serde(default)]
     pub r0: Option<f64>,
+    /// Sensor type: `mox` (the MOX time constants) or `fast` (both time constants
+    /// `sensors.mox.fast_tau`, about 0.1 s, for comparison) (default `mox`).
+    #[serde(default)]
+    pub kind: SensorKind,
+}
+
+/// Chemical sensor type.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum SensorKind {
+    /// Metal-oxide sensor with its slow, asymmetric dynamics.
+    #[default]
+    Mox,
+    /// Fast sensor (same static law, time constant `fast_tau`).
+    Fast,
 }
 
 /// Robot base.
@@ -281,13 +318,36 @@ impl Scenario {
             .collect()
     }
 
-    /// MOX parameters of channel `index` (shared parameters with the channel's own R0).
+    /// Nominal MOX parameters of channel `index` (shared parameters with the channel's own
+    /// R0; a `fast` channel takes `fast_tau` for both time constants). Each unit is drawn
+    /// around these by the world.
     pub fn mox_params(&self, index: usize) -> MoxParams {
         let mut p = self.sensors.mox.clone();
-        if let Some(r0) = self.sensors.channels.get(index).and_then(|c| c.r0) {
-            p.r0 = r0;
+        if let Some(ch) = self.sensors.channels.get(index) {
+            if let Some(r0) = ch.r0 {
+                p.r0 = r0;
+            }
+            if ch.kind == SensorKind::Fast {
+                p.tau_rise = p.fast_tau;
+                p.tau_decay = p.fast_tau;
+            }
         }
         p
+    }
+
+    /// The wind field kind in force (the default resolved from the plume mode).
+    pub fn wind_field(&self) -> WindFieldKind {
+        self.wind.field.unwrap_or(match self.plume {
+            PlumeSpec::Filament { .. } => WindFieldKind::Grid,
+            PlumeSpec::Gaussian { .. } => WindFieldKind::Uniform,
+        })
+    }
+
+    /// Arena volume for the room model [m^3] (area times `room.height`), if closed.
+    pub fn room_volume(&self) -> Option<f64> {
+        let r = self.room.as_ref()?;
+        let a = &self.arena;
+        Some((a.max[0] - a.min[0]) * (a.max[1] - a.min[1]) * r.height)
     }
 
     /// Checks ranges and consistency; errors name `file` and the key.

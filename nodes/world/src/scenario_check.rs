@@ -2,7 +2,8 @@
 //! Each failure is a [`WorldError::Invalid`] naming the file and the dotted key.
 
 use crate::error::WorldError;
-use crate::scenario::{PlumeSpec, Scenario};
+use crate::scenario::{PlumeSpec, Scenario, WindFieldKind};
+use crate::wind_grid::Edge;
 use std::collections::HashSet;
 
 struct Checker<'a> {
@@ -89,6 +90,11 @@ pub(crate) fn validate(s: &Scenario, file: &str) -> Result<(), WorldError> {
         "wind.meander.correlation_time",
         s.wind.meander.correlation_time,
     )?;
+    validate_wind_grid(s, &c)?;
+    if let Some(r) = &s.room {
+        c.positive("room.height", r.height)?;
+        c.non_negative("room.air_changes_per_hour", r.air_changes_per_hour)?;
+    }
     match &s.plume {
         PlumeSpec::Filament { max_filaments } => {
             if *max_filaments == 0 {
@@ -101,6 +107,20 @@ pub(crate) fn validate(s: &Scenario, file: &str) -> Result<(), WorldError> {
                 return Err(c.fail(
                     "wind.speed",
                     "the gaussian plume mode needs a mean wind speed > 0",
+                ));
+            }
+            // The time-averaged plume lies along the mean wind: the anemometer must read
+            // that same steady, uniform wind, or the sensors and the plume disagree.
+            if s.wind_field() != WindFieldKind::Uniform {
+                return Err(c.fail(
+                    "wind.field",
+                    "the gaussian plume is a time average in a steady uniform wind: set wind.field: uniform",
+                ));
+            }
+            if s.wind.meander.direction_std > 0.0 || s.wind.meander.speed_std > 0.0 {
+                return Err(c.fail(
+                    "wind.meander",
+                    "the gaussian plume is a time average in a steady wind: a meander would move the anemometer reading but not the plume; set its stds to 0 (or use the filament plume)",
                 ));
             }
         }
@@ -132,6 +152,53 @@ pub(crate) fn validate(s: &Scenario, file: &str) -> Result<(), WorldError> {
     validate_robot(s, &c)
 }
 
+fn validate_wind_grid(s: &Scenario, c: &Checker<'_>) -> Result<(), WorldError> {
+    let g = &s.wind.grid;
+    c.positive("wind.grid.resolution", g.resolution)?;
+    c.finite("wind.grid.coherence", &[g.coherence])?;
+    if !(0.0..=1.0).contains(&g.coherence) {
+        return Err(c.fail(
+            "wind.grid.coherence",
+            format!("must be within 0..=1, got {}", g.coherence),
+        ));
+    }
+    let mut seen = HashSet::new();
+    for (i, e) in g.solid_walls.iter().enumerate() {
+        if !seen.insert(*e) {
+            return Err(c.fail(
+                format!("wind.grid.solid_walls[{i}]"),
+                format!("{e:?} is listed twice"),
+            ));
+        }
+    }
+    if [Edge::South, Edge::East, Edge::North, Edge::West]
+        .iter()
+        .all(|e| seen.contains(e))
+    {
+        return Err(c.fail(
+            "wind.grid.solid_walls",
+            "all four edges are solid: no air can come in, so there is no wind; leave an inlet open",
+        ));
+    }
+    if s.wind_field() == WindFieldKind::Grid {
+        let (w, h) = (
+            s.arena.max[0] - s.arena.min[0],
+            s.arena.max[1] - s.arena.min[1],
+        );
+        let cells = (w / g.resolution).round() * (h / g.resolution).round();
+        if cells > 250_000.0 {
+            return Err(c.fail(
+                "wind.grid.resolution",
+                format!(
+                    "{} m gives {cells} cells over the arena (at most 250000): use a coarser grid",
+                    g.resolution
+                ),
+            ));
+        }
+    }
+    Ok(())
+}
+
 fn validate_sensors(s: &Scenario, c: &Checker<'_>) -> Result<(), WorldError> {
     c.positive("sensors.sample_rate", s.sensors.sample_rate)?;
     let m = &s.sensors.mox;
@@ -143,6 +210,13 @@ fn validate_sensors(s: &Scenario, c: &Checker<'_>) -> Result<(), WorldError> {
     c.positive("sensors.mox.load_resistance", m.load_resistance)?;
     c.positive("sensors.mox.supply_voltage", m.supply_voltage)?;
     c.non_negative("sensors.mox.noise_std", m.noise_std)?;
+    c.non_negative("sensors.mox.r0_spread", m.r0_spread)?;
+    c.non_negative("sensors.mox.beta_spread", m.beta_spread)?;
+    c.non_negative("sensors.mox.tau_spread", m.tau_spread)?;
+    c.non_negative("sensors.mox.drift_per_hour", m.drift_per_hour)?;
+    c.non_negative("sensors.mox.disturbance_std", m.disturbance_std)?;
+    c.positive("sensors.mox.disturbance_time", m.disturbance_time)?;
+    c.positive("sensors.mox.fast_tau", m.fast_tau)?;
     if m.adc_bits == 1 || m.adc_bits > 32 {
         return Err(c.fail(
             "sensors.mox.adc_bits",

@@ -5,6 +5,12 @@
 //! `scenario.physics_dt`, cut so that every sensor sample falls exactly on a sub-step end;
 //! readings are queued with their stamps and drained by the caller. Frames: world = ENU
 //! `odom` (odometry is perfect), sensor readings in `base_link`.
+//! The anemometer reads the wind at its own world position; each MOX channel is a unit drawn
+//! around the scenario's nominal parameters from its own seeded stream; a closed arena
+//! (`room`) adds its well-mixed background to the plume everywhere, fed by the filaments
+//! that age out inside the arena (their gas stays in the room, now well mixed) and emptied
+//! by the ventilation; in the gaussian mode the room has no source (the plume is a steady
+//! state that resolves all the gas).
 
 use crate::anemometer::{self, AnemometerParams};
 use crate::arena::Arena;
@@ -15,8 +21,9 @@ use crate::geometry::{Pose2, Twist2};
 use crate::laser::{self, LaserParams, LaserScan};
 use crate::mox::MoxSensor;
 use crate::robot::Robot;
+use crate::room::Room;
 use crate::sampling::SampleClock;
-use crate::scenario::{PlumeSpec, Scenario};
+use crate::scenario::{PlumeSpec, Scenario, WindFieldKind};
 use crate::wind::WindField;
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
@@ -116,6 +123,7 @@ pub struct World {
     robot: Robot,
     mox: Vec<MoxSensor>,
     mox_rngs: Vec<ChaCha8Rng>,
+    room: Option<Room>,
     channels: Vec<String>,
     chem_clock: SampleClock,
     chem_out: Vec<ChemReading>,
@@ -148,16 +156,28 @@ impl World {
                 count,
             })?;
         let arena = scenario.arena();
-        let wind = WindField::new(scenario.wind_params(), stream(seed, 1));
+        let wind = match scenario.wind_field() {
+            WindFieldKind::Uniform => WindField::new(scenario.wind_params(), stream(seed, 1)),
+            WindFieldKind::Grid => WindField::with_grid(
+                scenario.wind_params(),
+                &scenario.wind.grid,
+                &arena,
+                stream(seed, 1),
+            ),
+        };
         let plume = match &scenario.plume {
-            PlumeSpec::Filament { max_filaments } => {
-                PlumeModel::Filament(Box::new(FilamentPlume::new(
+            PlumeSpec::Filament { max_filaments } => PlumeModel::Filament(Box::new(
+                FilamentPlume::new(
                     scenario.filament_sources(),
                     arena.bounds,
                     *max_filaments,
                     stream(seed, 2),
-                )))
-            }
+                )
+                .with_walls(
+                    arena.obstacles.clone(),
+                    scenario.wind.grid.solid_walls.clone(),
+                ),
+            )),
             PlumeSpec::Gaussian {
                 stability_class,
                 terrain,
@@ -188,6 +208,20 @@ impl World {
             rng: stream(seed, 4),
         });
         let anemometer = scenario.anemometer.clone();
+        let mut mox_rngs: Vec<ChaCha8Rng> = (0..n as u64).map(|i| stream(seed, 16 + i)).collect();
+        let mox = mox_rngs
+            .iter_mut()
+            .enumerate()
+            .map(|(i, rng)| {
+                let (unit, drift) = scenario.mox_params(i).draw_unit(rng);
+                MoxSensor::unit(unit, drift, rng)
+            })
+            .collect();
+        let room = scenario
+            .room
+            .as_ref()
+            .zip(scenario.room_volume())
+            .map(|(r, v)| Room::new(v, r.air_changes_per_hour));
         Ok(Self {
             arena,
             t_ns: 0,
@@ -195,10 +229,9 @@ impl World {
             wind,
             plume,
             robot,
-            mox: (0..n)
-                .map(|i| MoxSensor::new(scenario.mox_params(i)))
-                .collect(),
-            mox_rngs: (0..n as u64).map(|i| stream(seed, 16 + i)).collect(),
+            mox,
+            mox_rngs,
+            room,
             channels: scenario
                 .sensors
                 .channels
@@ -277,15 +310,27 @@ impl World {
         let h = (next - self.t_ns) as f64 * 1e-9;
         let t_next = next as f64 * 1e-9;
         self.wind.advance_to(t_next);
+        let mut into_room = 0.0;
         if let PlumeModel::Filament(f) = &mut self.plume {
             f.step_to(&self.wind, t_next);
+            into_room = f.take_retired_mass() / h;
+        }
+        if let Some(r) = &mut self.room {
+            r.step(into_room, h);
         }
         self.robot.step(&self.arena, h);
         self.t_ns = next;
         let pose = self.robot.pose();
-        for (sensor, ch) in self.mox.iter_mut().zip(&self.scenario.sensors.channels) {
-            let c = self.plume.concentration(pose.body_to_world(ch.position));
+        let bg = self.background();
+        for ((sensor, ch), rng) in self
+            .mox
+            .iter_mut()
+            .zip(&self.scenario.sensors.channels)
+            .zip(self.mox_rngs.iter_mut())
+        {
+            let c = self.plume.concentration(pose.body_to_world(ch.position)) + bg;
             sensor.update(c, h);
+            sensor.advance_baseline(h, rng);
         }
         self.sample(pose);
     }
@@ -331,12 +376,28 @@ impl World {
             if m.clock.take_due(now).is_some() {
                 let mut snapshot = Vec::with_capacity(m.sum.len());
                 self.plume.grid_concentrations(&m.grid, &mut snapshot);
+                let bg = self.room.as_ref().map_or(0.0, Room::concentration);
                 for (s, c) in m.sum.iter_mut().zip(snapshot) {
-                    *s += c;
+                    *s += c + bg;
                 }
                 m.count += 1;
             }
         }
+    }
+
+    /// Well-mixed background concentration now [g/m^3] (0 in open air).
+    pub fn background(&self) -> f64 {
+        self.room.as_ref().map_or(0.0, Room::concentration)
+    }
+
+    /// The drawn MOX units (parameters, baseline) in channel order.
+    pub fn sensors(&self) -> &[MoxSensor] {
+        &self.mox
+    }
+
+    /// The wind field.
+    pub fn wind(&self) -> &WindField {
+        &self.wind
     }
 
     /// Chemical channel names, in the order of [`ChemReading::resistances`].
@@ -371,7 +432,7 @@ impl World {
             .sensors
             .channels
             .iter()
-            .map(|c| self.plume.concentration(pose.body_to_world(c.position)))
+            .map(|c| self.plume.concentration(pose.body_to_world(c.position)) + self.background())
             .collect()
     }
 
@@ -453,7 +514,7 @@ impl World {
 
     /// Instantaneous concentration [g/m^3] at world point `p` [m].
     pub fn concentration_at(&self, p: [f64; 3]) -> f64 {
-        self.plume.concentration(p)
+        self.plume.concentration(p) + self.background()
     }
 
     /// Live filaments (0 in the gaussian mode).
@@ -468,6 +529,8 @@ impl World {
     pub fn concentration_map(&self, grid: &GridSpec) -> Vec<f64> {
         let mut out = Vec::with_capacity(grid.nx * grid.ny);
         self.plume.grid_concentrations(grid, &mut out);
+        let bg = self.background();
+        out.iter_mut().for_each(|c| *c += bg);
         out
     }
 

@@ -110,6 +110,24 @@ fn invalid_values_name_the_key() {
             "sources[0].filaments.per_second",
         ),
         ("range_max: 10.0", "range_max: 0.05", "laser.range_max"),
+        ("coherence: 0.5", "coherence: 1.5", "wind.grid.coherence"),
+        ("resolution: 0.5", "resolution: 0.0", "wind.grid.resolution"),
+        (
+            "solid_walls: [south, north]",
+            "solid_walls: [south, north, east, west]",
+            "wind.grid.solid_walls",
+        ),
+        (
+            "solid_walls: [south, north]",
+            "solid_walls: [south, south]",
+            "wind.grid.solid_walls[1]",
+        ),
+        (
+            "air_changes_per_hour: 90.0",
+            "air_changes_per_hour: -1.0",
+            "room.air_changes_per_hour",
+        ),
+        ("height: 6.0", "height: 0.0", "room.height"),
     ];
     for (from, to, key) in cases {
         let text = demo_text();
@@ -134,6 +152,42 @@ fn gaussian_mode_needs_wind() {
         std::fs::read_to_string(scenario_dir().join("field_gaussian.yaml")).unwrap_or_default();
     let e = error_of(&text.replace("speed: 4.0", "speed: 0.0"));
     assert!(e.to_string().contains("wind.speed"), "{e}");
+}
+
+/// The time-averaged plume lies along the mean wind; a meandering or spatially varying
+/// anemometer wind beside it would contradict it, so the check refuses both.
+#[test]
+fn gaussian_mode_refuses_a_wind_it_does_not_follow() {
+    let text =
+        std::fs::read_to_string(scenario_dir().join("field_gaussian.yaml")).unwrap_or_default();
+    assert!(text.contains("field: uniform"));
+    let grid = error_of(&text.replace("field: uniform", "field: grid"));
+    assert!(grid.to_string().contains("wind.field"), "{grid}");
+    // Without the key the gaussian mode takes the uniform field (and loads).
+    let plain = text.replace("  field: uniform\n", "");
+    let s = Scenario::from_yaml_str(&plain, "plain.yaml").unwrap_or_else(|e| panic!("{e}"));
+    assert_eq!(
+        s.wind_field(),
+        sillage_world::scenario::WindFieldKind::Uniform
+    );
+    let meander = error_of(&text.replace(
+        "field: uniform",
+        "field: uniform\n  meander: {direction_std: 0.2}",
+    ));
+    assert!(meander.to_string().contains("wind.meander"), "{meander}");
+}
+
+#[test]
+fn filament_mode_defaults_to_the_grid_field_and_keeps_uniform_as_an_option() {
+    let text = demo_text();
+    let plain = text.replace("  field: grid\n", "");
+    let s = Scenario::from_yaml_str(&plain, "plain.yaml").unwrap_or_else(|e| panic!("{e}"));
+    assert_eq!(s.wind_field(), sillage_world::scenario::WindFieldKind::Grid);
+    let u = Scenario::from_yaml_str(&text.replace("field: grid", "field: uniform"), "u.yaml")
+        .unwrap_or_else(|e| panic!("{e}"));
+    let w = World::new(&u, 1, 0).unwrap_or_else(|e| panic!("{e}"));
+    assert!(!w.wind().is_grid());
+    assert_eq!(w.wind_at([1.0, 1.0, 0.3]), w.wind_at([18.0, 11.0, 0.3]));
 }
 
 #[test]
