@@ -395,7 +395,7 @@ pub struct PosteriorDeclareParams {
 
 impl Default for PosteriorDeclareParams {
     fn default() -> Self {
-        PosteriorDeclareParams { enabled: true, radius: 0.5, min_mass: 0.8, near: 1.0, max_age: 5.0 }
+        PosteriorDeclareParams { enabled: false, radius: 0.5, min_mass: 0.8, near: 1.0, max_age: 5.0 }
     }
 }
 

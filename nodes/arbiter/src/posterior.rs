@@ -158,7 +158,7 @@ mod tests {
 
     #[test]
     fn declaration_needs_mass_nearness_and_a_contact() {
-        let p = PosteriorDeclareParams::default();
+        let p = PosteriorDeclareParams { enabled: true, ..Default::default() };
         let tight = Posterior::from_parts(0, 3.0, 6.0, &cov(0.01, 0.0, 0.01)).expect("valid");
         assert!(tight.ready(Vec2::new(3.5, 6.0), 1, &p).is_some());
         assert!(tight.ready(Vec2::new(3.5, 6.0), 0, &p).is_none(), "no contact yet");

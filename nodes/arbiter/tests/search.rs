@@ -169,6 +169,7 @@ fn a_concentrated_posterior_declares_at_its_mean_only_when_used() {
     let mean = Vec2::new(2.0, 0.3);
     let run = |use_posterior: bool| {
         let mut p = Params::default();
+        p.declare.posterior.enabled = true;
         p.cues.use_posterior = use_posterior;
         let mut sim = Sim::new(p, Pose2::default(), WIND_TO_MINUS_X, plume_where(|_| true));
         sim.extra = Some(Box::new(move |t, _| vec![("/source_posterior", posterior_msg(t, mean, 0.15))]));
