@@ -13,6 +13,15 @@
 //!   to a window's worth of travel. A feature hit refused by that limit disarms feature hits
 //!   until the features have fallen below the exit thresholds, so the same stale window cannot
 //!   start a new contact right after the loss;
+//! - a *level hit* is a sustained concentration above the clean-air baseline: on an events
+//!   array, some channel's last event level (conditioned units, 0 = the channel's baseline)
+//!   is at least `level_enter` (`level_exit` while in contact) and that channel is not
+//!   falling: its last event rose less than `level_steady` seconds ago, or came `level_steady`
+//!   seconds ago or more (a steady signal sends no events) on a channel that has sent falling
+//!   events before (an encoder that publishes rises only, or a channel gone silent, would
+//!   otherwise hold a level for ever). Smooth, time-averaged plumes send few events but hold a level; a
+//!   signal decaying after the plume was left sends falling events and gives no level hit.
+//!   `level_enter = 0` switches level hits off;
 //! - every hit refreshes the last contact time; the robot is in contact until `loss_timeout`
 //!   passes without a hit;
 //! - the contact point is the robot's odom position at the last event hit (at the last feature
@@ -37,6 +46,8 @@ pub enum HitCause {
     BoutRate,
     /// The intermittency.
     Intermittency,
+    /// A sustained level above the baseline.
+    Level,
 }
 
 impl HitCause {
@@ -46,6 +57,7 @@ impl HitCause {
             HitCause::Events => "rising odor events",
             HitCause::BoutRate => "bout rate above threshold",
             HitCause::Intermittency => "intermittency above threshold",
+            HitCause::Level => "sustained odor level above the baseline",
         }
     }
 }
@@ -90,7 +102,21 @@ pub struct ContactDetector {
     started: Option<Nanos>,
     last_event_hit: Option<Nanos>,
     features_armed: bool,
+    levels: Vec<ChannelLevel>,
 }
+
+/// The last event of one channel.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct ChannelLevel {
+    channel: u32,
+    level: f64,
+    rising: bool,
+    at: Nanos,
+    falls_seen: bool,
+}
+
+/// Most channels whose levels are tracked (the oldest are forgotten first).
+const MAX_LEVEL_CHANNELS: usize = 64;
 
 impl ContactDetector {
     /// A detector with no contact yet.
@@ -107,6 +133,7 @@ impl ContactDetector {
             started: None,
             last_event_hit: None,
             features_armed: true,
+            levels: Vec::new(),
         }
     }
 
@@ -156,6 +183,42 @@ impl ContactDetector {
             self.hit(now, at, HitCause::Events);
         }
         hit
+    }
+
+    /// The events of one array (channel index, polarity +1/-1, level) arrived at `now`, the
+    /// robot being at `at`; returns whether a sustained level made a hit.
+    pub fn on_levels(&mut self, now: Nanos, events: impl IntoIterator<Item = (u32, i8, f64)>, at: Option<Vec2>) -> bool {
+        for (channel, polarity, level) in events {
+            if !level.is_finite() {
+                continue;
+            }
+            let mut e = ChannelLevel { channel, level, rising: polarity > 0, at: now, falls_seen: polarity < 0 };
+            match self.levels.iter_mut().find(|c| c.channel == channel) {
+                Some(c) => {
+                    e.falls_seen |= c.falls_seen;
+                    *c = e;
+                }
+                None => {
+                    if self.levels.len() == MAX_LEVEL_CHANNELS {
+                        self.levels.remove(0);
+                    }
+                    self.levels.push(e);
+                }
+            }
+        }
+        if self.p.level_enter <= 0.0 {
+            return false;
+        }
+        let threshold = if self.in_contact(now) { self.p.level_exit } else { self.p.level_enter };
+        let steady = nanos(self.p.level_steady);
+        let sustained = self.levels.iter().any(|c| {
+            let old = now.saturating_sub(c.at) >= steady;
+            c.level >= threshold && if old { c.falls_seen } else { c.rising }
+        });
+        if sustained {
+            self.hit(now, at, HitCause::Level);
+        }
+        sustained
     }
 
     /// Features arrived at `now`, the robot being at `at`.
@@ -225,6 +288,37 @@ mod tests {
         // Lost after loss_timeout (2 s default).
         assert!(c.in_contact(4 * SECOND + SECOND / 2));
         assert!(!c.in_contact(4 * SECOND + SECOND / 2 + 1));
+    }
+
+    #[test]
+    fn a_sustained_level_holds_a_contact_and_a_falling_one_does_not() {
+        let p = ContactParams { level_enter: 0.2, level_exit: 0.1, level_steady: 3.0, ..Default::default() };
+        let mut c = ContactDetector::new(p);
+        assert!(!c.on_levels(0, [(0, 1, 0.15)], None), "below level_enter");
+        assert!(!c.on_levels(0, [(0, -1, 0.05)], None), "channel 0 back near its baseline");
+        assert!(c.on_levels(SECOND, [(1, 1, 0.25)], Some(Vec2::new(4.0, 0.0))), "channel 1 rose above level_enter");
+        assert_eq!(c.view(SECOND).cause, Some(HitCause::Level));
+        assert_eq!(c.view(SECOND).point, Some(Vec2::new(4.0, 0.0)));
+        // Falling on channel 1 but still above the exit level: no hit while it falls.
+        assert!(!c.on_levels(2 * SECOND, [(1, -1, 0.2)], None));
+        // No new event for 3 s: a steady signal above level_exit is a hit again (empty arrays).
+        assert!(c.in_contact(3 * SECOND));
+        assert!(!c.on_levels(4 * SECOND, [], None));
+        assert!(!c.in_contact(4 * SECOND), "the falling stretch gave no hit: lost after loss_timeout");
+        assert!(c.on_levels(5 * SECOND, [], None), "steady for 3 s at 0.2 >= level_enter");
+        // Decayed below the exit level: nothing, and the contact times out.
+        c.on_levels(6 * SECOND, [(1, -1, 0.05), (0, -1, 0.0)], None);
+        for k in 7..=12 {
+            assert!(!c.on_levels(k * SECOND, [], None));
+        }
+        assert!(!c.in_contact(12 * SECOND));
+        // A channel that never sent a falling event gets no credit for a steady level.
+        let mut rises_only = ContactDetector::new(ContactParams { level_enter: 0.2, level_exit: 0.1, level_steady: 3.0, ..Default::default() });
+        assert!(rises_only.on_levels(0, [(0, 1, 0.5)], None));
+        assert!(!rises_only.on_levels(10 * SECOND, [], None), "no falls seen: no steady hold");
+        let mut off = ContactDetector::new(ContactParams { level_enter: 0.0, ..Default::default() });
+        assert!(!off.on_levels(0, [(0, 1, 5.0)], None), "level_enter 0 switches level hits off");
+        assert!(!off.on_levels(0, [(0, 1, f64::NAN)], None));
     }
 
     #[test]

@@ -13,6 +13,8 @@
 //!   fed but is no evidence of contact, since every comparison with NaN fails); distance NaN
 //!   (uncalibrated) or finite >= 0; sigma not negative (NaN or +inf: distance unusable).
 //! - `odor_events`: every polarity is +1 or -1.
+//! - `source_posterior`: frame `frames.odom` (or empty); the checks of
+//!   [`crate::posterior::Posterior::from_parts`] (finite mean, symmetric PSD covariance).
 //! - `scan`: finite non-zero `angle_increment`, finite `angle_min`, `0 <= range_min <
 //!   range_max`, and at least one beam. Each beam is kept with its angle in base_link and a
 //!   class ([`Beam`]), following REP 117: +inf is a valid clear beam; -inf (too close to
@@ -49,10 +51,12 @@ pub enum Input {
     Scan = 7,
     /// `search_restart` (Empty): search again after a declaration.
     SearchRestart = 8,
+    /// `source_posterior` (PoseWithCovarianceStamped, optional: no watchdog).
+    SourcePosterior = 9,
 }
 
 /// Number of inputs.
-pub const INPUTS: usize = 9;
+pub const INPUTS: usize = 10;
 
 impl Input {
     /// Every input in port order.
@@ -66,6 +70,7 @@ impl Input {
         Input::EStopReset,
         Input::Scan,
         Input::SearchRestart,
+        Input::SourcePosterior,
     ];
 
     /// The input at port index `i`.
@@ -90,6 +95,7 @@ impl Input {
             Input::EStopReset => "e_stop_reset",
             Input::Scan => "scan",
             Input::SearchRestart => "search_restart",
+            Input::SourcePosterior => "source_posterior",
         }
     }
 }
@@ -110,6 +116,8 @@ pub struct OdomObs {
     pub pose: Pose2,
     /// Planar velocity of base_link in base_link [m/s].
     pub velocity: Vec2,
+    /// Yaw rate [rad/s] (twist.angular.z).
+    pub yaw_rate: f64,
 }
 
 /// A decoded bearing.
@@ -193,9 +201,10 @@ pub fn odom(m: &Odometry, frames: &Frames) -> Result<OdomObs, ArbiterError> {
     }
     let vx = finite(t, "twist.twist.linear.x", m.twist.twist.linear.x)?;
     let vy = finite(t, "twist.twist.linear.y", m.twist.twist.linear.y)?;
+    let wz = finite(t, "twist.twist.angular.z", m.twist.twist.angular.z)?;
     // Normalised first: the yaw formula assumes a unit quaternion.
     let unit = Quaternion { x: q.x / norm, y: q.y / norm, z: q.z / norm, w: q.w / norm };
-    Ok(OdomObs { pose: Pose2 { position: Vec2::new(x, y), yaw: unit.yaw() }, velocity: Vec2::new(vx, vy) })
+    Ok(OdomObs { pose: Pose2 { position: Vec2::new(x, y), yaw: unit.yaw() }, velocity: Vec2::new(vx, vy), yaw_rate: wz })
 }
 
 /// Checks a bearing.
@@ -252,6 +261,16 @@ pub fn events(m: &OdorEventArray, min_level: f64) -> Result<EventsObs, ArbiterEr
         }
     }
     Ok(EventsObs { rising })
+}
+
+/// Checks a source posterior received at `now`.
+pub fn posterior(now: Nanos, m: &PoseWithCovarianceStamped, frames: &Frames) -> Result<crate::posterior::Posterior, ArbiterError> {
+    let t = Input::SourcePosterior;
+    if !frame_ok(&m.header.frame_id, &frames.odom) {
+        return Err(frame_err(t, &m.header.frame_id, &frames.odom));
+    }
+    let p = &m.pose.pose.position;
+    crate::posterior::Posterior::from_parts(now, p.x, p.y, &m.pose.covariance.0).map_err(|r| ArbiterError::field(t.topic(), r.field, r.reason, "refused"))
 }
 
 /// One beam of a scan, classified (REP 117).

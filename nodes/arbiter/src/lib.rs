@@ -4,7 +4,7 @@
 //! Inputs (port order): `odor_bearing` (OdorBearing), `plume_features` (PlumeFeatures),
 //! `odor_events` (OdorEventArray), `wind` (Vector3Stamped, base_link, air velocity pointing where
 //! the air goes to), `odom` (Odometry), `e_stop` (Bool), `e_stop_reset` (Empty), `scan`
-//! (LaserScan, optional). Outputs: `cmd_vel` (TwistStamped or Twist by `cmd_vel_stamped`,
+//! (LaserScan, optional), `source_posterior` (PoseWithCovarianceStamped, odom, optional). Outputs: `cmd_vel` (TwistStamped or Twist by `cmd_vel_stamped`,
 //! frame base_link, at the control rate), `search_state` (SearchState, latched),
 //! `source_estimate` (PointStamped, odom).
 //!
@@ -14,7 +14,9 @@
 //! - [`watchdog`]: input freshness; [`wind`]: wind in odom; [`contact`]: the contact decision;
 //! - [`modes`]: modes, precedence and transitions; [`strategy`]: the behaviour strategies and
 //!   how to add one; [`declare`]: source declaration from the plume features;
-//!   [`front`]: source declaration where the plume keeps ending upwind;
+//!   [`plume_end`]: source declaration where the plume keeps ending upwind;
+//!   [`posterior`]: the optional source posterior and its declaration rule;
+//!   [`avoid`]: local obstacle avoidance that bends headings around what the laser sees;
 //! - [`drive`]: from motion intent to a body command; [`guard`]: caps, rate limits, e-stop
 //!   latch, obstacle stop, geofence;
 //! - [`node`]: the [`NodeCore`](sillage_core::NodeCore) implementation; [`diagnostics`].
@@ -26,12 +28,14 @@
 //! deceleration limits; every input is stale until its first message; a non-finite value never
 //! reaches `cmd_vel`.
 
+pub mod avoid;
 pub mod contact;
 pub mod declare;
 pub mod diagnostics;
 pub mod drive;
 pub mod error;
-pub mod front;
+pub mod plume_end;
+pub mod posterior;
 pub mod geometry;
 pub mod guard;
 pub mod inputs;

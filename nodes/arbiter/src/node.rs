@@ -23,9 +23,11 @@
 //!   watchdogs, stamp orders, wind, contact, declaration evidence and the strategy; the e-stop
 //!   latch and a declaration stay.
 
+use crate::avoid::Avoider;
 use crate::contact::ContactDetector;
+use crate::posterior::Posterior;
 use crate::declare::Declarer;
-use crate::front::FrontTracker;
+use crate::plume_end::PlumeEndTracker;
 use crate::drive::{Cmd, Drive, Motion};
 use crate::error::ArbiterError;
 use crate::geometry::{wrap_angle, Vec2};
@@ -85,7 +87,7 @@ pub struct Arbiter {
     wind: WindEstimator,
     pub(crate) contact: ContactDetector,
     declarer: Declarer,
-    front: FrontTracker,
+    plume_end: PlumeEndTracker,
     was_in_contact: bool,
     pub(crate) modes: ModeMachine,
     odom: Option<OdomObs>,
@@ -101,6 +103,8 @@ pub struct Arbiter {
     last_now: Option<Nanos>,
     last_state_pub: Option<Nanos>,
     pub(crate) heading_target: f64,
+    avoid: Avoider,
+    posterior: Option<Posterior>,
 }
 
 impl Arbiter {
@@ -127,7 +131,7 @@ impl Arbiter {
             wind: WindEstimator::new(params.wind.clone()),
             contact: ContactDetector::new(params.contact.clone()),
             declarer: Declarer::new(params.declare.clone()),
-            front: FrontTracker::new(params.declare.front.clone()),
+            plume_end: PlumeEndTracker::new(params.declare.plume_end.clone()),
             was_in_contact: false,
             modes: ModeMachine::default(),
             odom: None,
@@ -143,6 +147,8 @@ impl Arbiter {
             last_now: None,
             last_state_pub: None,
             heading_target: f64::NAN,
+            avoid: Avoider::default(),
+            posterior: None,
             strategy,
             custom_strategy,
             params,
@@ -213,6 +219,8 @@ impl Arbiter {
             self.watchdog.reset();
             self.stamps.reset();
             self.wind.reset();
+            self.avoid.reset();
+            self.posterior = None;
             self.forget_evidence();
             self.strategy.reset();
             self.last_state_pub = None;
@@ -237,7 +245,7 @@ impl Arbiter {
     fn forget_evidence(&mut self) {
         self.contact.reset();
         self.declarer.reset();
-        self.front.reset();
+        self.plume_end.reset();
         self.was_in_contact = false;
     }
 
@@ -360,6 +368,25 @@ impl Arbiter {
             bearing: self.bearing_view(odom.pose.yaw),
             contact: self.contact.view(now),
             period: self.params.period(),
+            posterior: self.usable_posterior(now),
+        }
+    }
+
+    /// The posterior, if fresh and `cues.use_posterior` is on.
+    fn usable_posterior(&self, now: Nanos) -> Option<Posterior> {
+        self.posterior.filter(|q| self.params.cues.use_posterior && q.fresh(now, &self.params.declare.posterior))
+    }
+
+    /// The strategy's motion, bent around obstacles ([`crate::avoid`]) when a scan is in use.
+    fn avoid_obstacles(&mut self, now: Nanos, motion: Motion, yaw: f64) -> Motion {
+        let Motion::Heading { heading, speed, face } = motion else { return motion };
+        if !(self.params.avoid.enabled && self.scan_seen) || speed <= 0.0 {
+            return motion;
+        }
+        let want = wrap_angle(heading - yaw);
+        match self.avoid.steer(now, want, &self.params.avoid) {
+            Some(body) => Motion::Heading { heading: wrap_angle(yaw + body), speed, face },
+            None => motion,
         }
     }
 
@@ -407,14 +434,17 @@ impl Arbiter {
                 let decision = self.strategy.step(&ctx);
                 let upwind = ctx.wind.upwind.or(ctx.wind.last_upwind);
                 if self.was_in_contact && !ctx.contact.in_contact {
-                    self.front.on_loss(upwind);
+                    self.plume_end.on_loss(upwind);
                 }
                 self.was_in_contact = ctx.contact.in_contact;
                 let by_features = self.declarer.ready(now).filter(|_| ctx.contact.in_contact).map(|reason| {
                     (self.declarer.estimate(&odom.pose, self.last_bearing_odom, upwind), reason)
                 });
-                let by_front = || self.front.ready().filter(|_| self.params.declare.enabled);
-                if let Some((estimate, reason)) = by_features.or_else(by_front) {
+                let by_plume_end = || self.plume_end.ready().filter(|_| self.params.declare.enabled);
+                let by_posterior = || {
+                    ctx.posterior.filter(|_| self.params.declare.enabled).and_then(|q| q.ready(odom.pose.position, ctx.contact.hits, &self.params.declare.posterior))
+                };
+                if let Some((estimate, reason)) = by_features.or_else(by_plume_end).or_else(by_posterior) {
                     self.declared = Some(Declared { at: now, estimate });
                     self.modes.enter(now, Mode::Declared, reason);
                     let p = PointStamped { header: Header::new(now, &self.params.frames.odom), point: Point { x: estimate.x, y: estimate.y, z: 0.0 } };
@@ -429,7 +459,7 @@ impl Arbiter {
                         };
                         strategy_mode = Some((mode, reason));
                     }
-                    motion = decision.motion;
+                    motion = self.avoid_obstacles(now, decision.motion, odom.pose.yaw);
                 }
             }
         }
@@ -480,7 +510,7 @@ impl Arbiter {
         }
         if next.declare != self.params.declare {
             self.declarer.set_params(next.declare.clone());
-            self.front.set_params(next.declare.front.clone());
+            self.plume_end.set_params(next.declare.plume_end.clone());
         }
         self.drive = Drive { p: next.drive.clone(), base: next.base };
         self.guard.set_params(&next);
@@ -506,6 +536,7 @@ impl NodeCore for Arbiter {
             Port::of::<Empty>("e_stop_reset", Qos::Reliable),
             Port::of::<LaserScan>("scan", Qos::SensorData),
             Port::of::<Empty>("search_restart", Qos::Reliable),
+            Port::of::<PoseWithCovarianceStamped>("source_posterior", Qos::Reliable),
         ]
     }
 
@@ -549,9 +580,12 @@ impl NodeCore for Arbiter {
             (Some(Input::OdorEvents), Msg::OdorEventArray(m)) => {
                 self.accept(now, Input::OdorEvents, &m.header.stamp, inputs::events(m, self.params.contact.min_event_level), |s, e| {
                     let at = s.position();
+                    let levels = m.events.iter().map(|ev| (u32::from(ev.channel), ev.polarity, ev.level));
+                    s.contact.on_levels(now, levels, at);
                     let hit = s.contact.on_events(now, e, at);
                     if let (true, Some(at)) = (hit, at) {
-                        s.front.on_event_hit(at);
+                        let blocked = s.avoid.blocked_since().is_some_and(|t| now.saturating_sub(t) <= nanos(s.params.avoid.distrust));
+                        s.plume_end.on_event_hit(at, blocked);
                     }
                 });
             }
@@ -571,7 +605,13 @@ impl NodeCore for Arbiter {
                 self.accept(now, Input::Scan, &m.header.stamp, parsed, |s, d| {
                     s.scan = Some(d);
                     s.scan_seen = true;
+                    let yaw = s.params.obstacle.scan_yaw;
+                    s.avoid.on_scan(m, yaw, &s.params.avoid);
                 });
+            }
+            (Some(Input::SourcePosterior), Msg::PoseWithCovarianceStamped(m)) => {
+                let parsed = inputs::posterior(now, m, frames);
+                self.accept(now, Input::SourcePosterior, &m.header.stamp, parsed, |s, q| s.posterior = Some(q));
             }
             (Some(Input::EStop), Msg::Bool(b)) => self.on_e_stop(now, b.data, out),
             (Some(Input::EStopReset), Msg::Empty(_)) => self.on_reset(now),

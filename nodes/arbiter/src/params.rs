@@ -57,6 +57,9 @@ pub enum LimitAction {
     GiveUp,
     /// Drive back to the last contact point, then wait there.
     Return,
+    /// Keep searching: acquisition sweeps ([`crate::strategy::Sweep`]) around the most likely
+    /// source region (the posterior mean when there is one, else the last contact point).
+    Search,
 }
 
 /// What the guard does at the geofence.
@@ -86,22 +89,36 @@ impl Default for Frames {
     }
 }
 
-/// Wind conditioning.
+/// Wind conditioning: how the `wind` topic is read (the shared meaning of `sillage_air`: a
+/// base-frame reading is relative wind when `relative`, an odom-frame one is always true
+/// wind) and how it is filtered.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
 pub struct WindParams {
-    /// Below this filtered speed the wind gives no direction [m/s].
+    /// A base_link reading is the relative wind at the moving anemometer: the anemometer's own
+    /// velocity (odometry twist and lever arm) is added back to get the true wind.
+    pub relative: bool,
+    /// Anemometer x in base_link (lever arm of the rotation term) [m].
+    pub anemometer_x: f64,
+    /// Anemometer y in base_link [m].
+    pub anemometer_y: f64,
+    /// Below this filtered true-wind speed the air is still: no direction [m/s] (> 0).
     pub min_speed: f64,
     /// Time constant of the first-order low-pass applied in the odom frame [s] (0: none).
     pub filter_tau: f64,
-    /// Add the robot's own velocity (odom twist) to the reading: an anemometer on a moving
-    /// robot measures the air relative to itself.
-    pub ego_motion: bool,
+}
+
+impl WindParams {
+    /// The shared air parameters.
+    pub fn air(&self) -> sillage_air::AirParams {
+        sillage_air::AirParams { relative: self.relative, anemometer_x: self.anemometer_x, anemometer_y: self.anemometer_y, min_speed: self.min_speed }
+    }
 }
 
 impl Default for WindParams {
     fn default() -> Self {
-        WindParams { min_speed: 0.1, filter_tau: 1.0, ego_motion: true }
+        let a = sillage_air::AirParams::default();
+        WindParams { relative: a.relative, anemometer_x: a.anemometer_x, anemometer_y: a.anemometer_y, min_speed: a.min_speed, filter_tau: 1.0 }
     }
 }
 
@@ -130,6 +147,13 @@ pub struct ContactParams {
     /// Feature hits keep a contact going only this long after its last event hit (or its
     /// start) [s]: windowed features outlast the plume ([`crate::contact`]).
     pub feature_hold: f64,
+    /// A channel's last event level at least this starts a contact (a sustained concentration
+    /// above the clean-air baseline) [conditioned units, 0 = baseline]; 0 = no level hits.
+    pub level_enter: f64,
+    /// The level that keeps a contact going [conditioned units] (<= `level_enter`).
+    pub level_exit: f64,
+    /// A channel with no event for this long holds a steady level [s].
+    pub level_steady: f64,
 }
 
 impl Default for ContactParams {
@@ -144,6 +168,9 @@ impl Default for ContactParams {
             intermittency_exit: 0.03,
             loss_timeout: 2.0,
             feature_hold: 3.0,
+            level_enter: 0.2,
+            level_exit: 0.1,
+            level_steady: 3.0,
         }
     }
 }
@@ -213,10 +240,60 @@ impl Default for CastParams {
             growth: 1.5,
             leg_max: 4.0,
             max_legs: 8,
-            on_limit: LimitAction::GiveUp,
+            on_limit: LimitAction::Search,
             arrive_tolerance: 0.15,
             leg_time_factor: 3.0,
         }
+    }
+}
+
+/// Plume acquisition sweeps ([`crate::strategy::Sweep`]); speed, arrival and leg time-out
+/// are `cast.*`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct SweepParams {
+    /// Half-width of the first crosswind leg [m].
+    pub width_initial: f64,
+    /// Each leg's half-width is this much larger than the previous one (>= 1).
+    pub growth: f64,
+    /// Half-widths stop growing here [m] (>= `width_initial`).
+    pub width_max: f64,
+    /// Each leg runs this much further downwind (or upwind, on the way back) [m].
+    pub spacing: f64,
+    /// Legs turn back upwind beyond this distance downwind of the origin [m].
+    pub max_downwind: f64,
+    /// Legs turn back downwind beyond this distance upwind of the origin [m].
+    pub max_upwind: f64,
+}
+
+impl Default for SweepParams {
+    fn default() -> Self {
+        SweepParams { width_initial: 1.0, growth: 1.5, width_max: 6.0, spacing: 1.0, max_downwind: 12.0, max_upwind: 6.0 }
+    }
+}
+
+/// Local obstacle avoidance ([`crate::avoid`]).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct AvoidParams {
+    /// Bend headings around what the scan sees (once a scan has been received).
+    pub enabled: bool,
+    /// Half-width of the corridor that must be clear: the robot's half-width plus a margin [m].
+    pub half_width: f64,
+    /// Length of that corridor ahead [m].
+    pub look_ahead: f64,
+    /// Heading step of the search for a free direction [rad].
+    pub step: f64,
+    /// Largest bend from the wanted heading [rad] (<= pi).
+    pub max_turn: f64,
+    /// An odor hit within this time of the wanted heading being blocked is "at an obstacle
+    /// face": a plume whose upwind end is such a hit does not count for the plume-end rule [s].
+    pub distrust: f64,
+}
+
+impl Default for AvoidParams {
+    fn default() -> Self {
+        AvoidParams { enabled: true, half_width: 0.45, look_ahead: 1.2, step: 0.1745, max_turn: 1.75, distrust: 1.0 }
     }
 }
 
@@ -297,14 +374,38 @@ pub struct DeclareParams {
     pub min_intermittency: f64,
     /// The evidence must hold, in contact, on every features message for this long [s].
     pub dwell: f64,
-    /// The second rule: where the plume keeps ending upwind ([`crate::front`]).
-    pub front: FrontParams,
+    /// The second rule: where the plume keeps ending upwind ([`crate::plume_end`]).
+    pub plume_end: PlumeEndParams,
+    /// The third rule: the source posterior is concentrated ([`crate::posterior`]).
+    pub posterior: PosteriorDeclareParams,
 }
 
-/// Plume-front declaration ([`crate::front`]).
+/// Declaration from the source posterior ([`crate::posterior`]).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
-pub struct FrontParams {
+pub struct PosteriorDeclareParams {
+    /// Declare by this rule (also needs `cues.use_posterior` and a fresh posterior).
+    pub enabled: bool,
+    /// Radius around the posterior mean whose probability mass counts [m].
+    pub radius: f64,
+    /// Mass within `radius` at least [0..1] (Gaussian approximation from the covariance).
+    pub min_mass: f64,
+    /// The robot must be within this distance of the mean [m] (it has sampled the region).
+    pub near: f64,
+    /// A posterior older than this is not used [s].
+    pub max_age: f64,
+}
+
+impl Default for PosteriorDeclareParams {
+    fn default() -> Self {
+        PosteriorDeclareParams { enabled: false, radius: 0.5, min_mass: 0.8, near: 1.0, max_age: 5.0 }
+    }
+}
+
+/// Plume-end declaration ([`crate::plume_end`]).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct PlumeEndParams {
     /// Declare by this rule at all.
     pub enabled: bool,
     /// Rising-event hits a contact period needs for its front to count (1..=1000).
@@ -317,9 +418,9 @@ pub struct FrontParams {
     pub min_stalls: u32,
 }
 
-impl Default for FrontParams {
+impl Default for PlumeEndParams {
     fn default() -> Self {
-        FrontParams { enabled: true, min_hits: 2, advance: 0.3, radius: 0.6, min_stalls: 2 }
+        PlumeEndParams { enabled: true, min_hits: 2, advance: 0.3, radius: 0.6, min_stalls: 2 }
     }
 }
 
@@ -333,7 +434,8 @@ impl Default for DeclareParams {
             min_bout_rate: 1.0,
             min_intermittency: 0.3,
             dwell: 3.0,
-            front: FrontParams::default(),
+            plume_end: PlumeEndParams::default(),
+            posterior: PosteriorDeclareParams::default(),
         }
     }
 }
@@ -540,6 +642,10 @@ pub struct Params {
     pub cast: CastParams,
     /// Zigzag strategy.
     pub zigzag: ZigzagParams,
+    /// Plume acquisition sweeps.
+    pub sweep: SweepParams,
+    /// Local obstacle avoidance.
+    pub avoid: AvoidParams,
     /// Spiral strategy.
     pub spiral: SpiralParams,
     /// Reactive strategy.
@@ -597,6 +703,8 @@ impl Default for Params {
             surge: SurgeParams::default(),
             cast: CastParams::default(),
             zigzag: ZigzagParams::default(),
+            sweep: SweepParams::default(),
+            avoid: AvoidParams::default(),
             spiral: SpiralParams::default(),
             reactive: ReactiveParams::default(),
             declare: DeclareParams::default(),
@@ -660,7 +768,7 @@ impl NodeParams for Params {
         frame(&self.frames.odom, "frames.odom")?;
 
         let w = &self.wind;
-        non_negative(w.min_speed, "wind.min_speed", "m/s")?;
+        w.air().check("wind")?;
         non_negative(w.filter_tau, "wind.filter_tau", "s")?;
 
         let c = &self.contact;
@@ -675,6 +783,12 @@ impl NodeParams for Params {
         ordered(c.intermittency_exit, c.intermittency_enter, "contact.intermittency_exit", "contact.intermittency_enter")?;
         positive(c.loss_timeout, "contact.loss_timeout", "s")?;
         non_negative(c.feature_hold, "contact.feature_hold", "s")?;
+        non_negative(c.level_enter, "contact.level_enter", "conditioned units")?;
+        non_negative(c.level_exit, "contact.level_exit", "conditioned units")?;
+        if c.level_enter > 0.0 {
+            ordered(c.level_exit, c.level_enter, "contact.level_exit", "contact.level_enter")?;
+        }
+        non_negative(c.level_steady, "contact.level_steady", "s")?;
 
         positive(self.drive.heading_gain, "drive.heading_gain", "1/s")?;
         ensure(
@@ -700,6 +814,21 @@ impl NodeParams for Params {
             "cast.leg_time_factor",
             format!("must be >= 1, got {}", k.leg_time_factor),
         )?;
+
+        let w = &self.sweep;
+        positive(w.width_initial, "sweep.width_initial", "m")?;
+        ensure(w.growth.is_finite() && w.growth >= 1.0, "sweep.growth", format!("must be >= 1, got {}", w.growth))?;
+        ordered(w.width_initial, w.width_max, "sweep.width_initial", "sweep.width_max")?;
+        positive(w.spacing, "sweep.spacing", "m")?;
+        non_negative(w.max_downwind, "sweep.max_downwind", "m")?;
+        non_negative(w.max_upwind, "sweep.max_upwind", "m")?;
+
+        let a = &self.avoid;
+        positive(a.half_width, "avoid.half_width", "m")?;
+        positive(a.look_ahead, "avoid.look_ahead", "m")?;
+        positive(a.step, "avoid.step", "rad")?;
+        ensure(a.max_turn.is_finite() && a.max_turn >= a.step && a.max_turn <= std::f64::consts::PI, "avoid.max_turn", format!("must be in [avoid.step, pi] [rad], got {}", a.max_turn))?;
+        non_negative(a.distrust, "avoid.distrust", "s")?;
 
         let z = &self.zigzag;
         positive(z.leg_length, "zigzag.leg_length", "m")?;
@@ -731,11 +860,16 @@ impl NodeParams for Params {
         non_negative(d.min_bout_rate, "declare.min_bout_rate", "Hz")?;
         within(d.min_intermittency, 0.0, 1.0, "declare.min_intermittency")?;
         non_negative(d.dwell, "declare.dwell", "s")?;
-        let f = &d.front;
-        ensure((1..=1000).contains(&f.min_hits), "declare.front.min_hits", format!("must be in 1..=1000, got {}", f.min_hits))?;
-        non_negative(f.advance, "declare.front.advance", "m")?;
-        positive(f.radius, "declare.front.radius", "m")?;
-        ensure((1..=100).contains(&f.min_stalls), "declare.front.min_stalls", format!("must be in 1..=100, got {}", f.min_stalls))?;
+        let f = &d.plume_end;
+        ensure((1..=1000).contains(&f.min_hits), "declare.plume_end.min_hits", format!("must be in 1..=1000, got {}", f.min_hits))?;
+        non_negative(f.advance, "declare.plume_end.advance", "m")?;
+        positive(f.radius, "declare.plume_end.radius", "m")?;
+        ensure((1..=100).contains(&f.min_stalls), "declare.plume_end.min_stalls", format!("must be in 1..=100, got {}", f.min_stalls))?;
+        let q = &d.posterior;
+        positive(q.radius, "declare.posterior.radius", "m")?;
+        within(q.min_mass, 0.0, 1.0, "declare.posterior.min_mass")?;
+        non_negative(q.near, "declare.posterior.near", "m")?;
+        positive(q.max_age, "declare.posterior.max_age", "s")?;
 
         let g = &self.guard;
         non_negative(g.max_linear, "guard.max_linear", "m/s")?;

@@ -70,7 +70,7 @@ impl Watchdog {
             Input::Odom => p.odom,
             Input::Scan => p.scan,
             Input::EStop => p.e_stop,
-            Input::EStopReset | Input::SearchRestart => 0.0,
+            Input::EStopReset | Input::SearchRestart | Input::SourcePosterior => 0.0,
         };
         (t > 0.0).then_some(t)
     }

@@ -5,8 +5,10 @@
 //! Contract: `upwind()` is the odom heading the air comes from, `atan2(-w_y, -w_x)`, or `None`
 //! while the filtered speed is below `wind.min_speed`; `last_upwind()` keeps the last reliable
 //! one. A reading in base_link that arrives before any odometry cannot be rotated and is
-//! skipped (the odom watchdog halts the robot meanwhile). Ego-motion: the anemometer reads
-//! `w_true - v_robot`, so `v_robot` (odom twist, base_link) is added back.
+//! skipped (the odom watchdog halts the robot meanwhile). Relative and true wind have the one
+//! meaning of [`sillage_air`]: with `wind.relative` a base_link reading is the air relative to
+//! the moving anemometer, and the anemometer's velocity (odometry twist plus yaw rate times
+//! the lever arm `wind.anemometer_x/y`) is added back; a reading in odom is true wind as it is.
 
 use crate::geometry::Vec2;
 use crate::inputs::{OdomObs, WindObs};
@@ -48,11 +50,12 @@ impl WindEstimator {
     /// A reading at `now` with the latest odometry; returns false when it could not be used.
     pub fn on_wind(&mut self, now: Nanos, w: WindObs, odom: Option<&OdomObs>) -> bool {
         let air = if w.in_odom {
-            w.air + if self.p.ego_motion { odom.map(|o| o.pose.to_odom(o.velocity)).unwrap_or(Vec2::ZERO) } else { Vec2::ZERO }
+            w.air
         } else {
             let Some(o) = odom else { return false };
-            let body = if self.p.ego_motion { w.air + o.velocity } else { w.air };
-            o.pose.to_odom(body)
+            let motion = sillage_air::Motion { velocity: [o.velocity.x, o.velocity.y], omega: o.yaw_rate };
+            let Ok(t) = self.p.air().true_wind_base([w.air.x, w.air.y], Some(&motion)) else { return false };
+            o.pose.to_odom(Vec2::new(t.base[0], t.base[1]))
         };
         let next = match (self.filtered, self.last_t) {
             (Some(f), Some(t)) if self.p.filter_tau > 0.0 => {
@@ -76,7 +79,7 @@ impl WindEstimator {
     /// Heading the air comes from [rad, odom], `None` if unknown or too weak.
     pub fn upwind(&self) -> Option<f64> {
         let f = self.filtered?;
-        (f.norm() >= self.p.min_speed && f.norm() > 0.0).then(|| (-f).angle())
+        self.p.air().upwind([f.x, f.y])
     }
 
     /// The view for strategies.
@@ -99,12 +102,12 @@ mod tests {
     use std::f64::consts::PI;
 
     fn odom(yaw: f64, v: Vec2) -> OdomObs {
-        OdomObs { pose: Pose2 { position: Vec2::ZERO, yaw }, velocity: v }
+        OdomObs { pose: Pose2 { position: Vec2::ZERO, yaw }, velocity: v, yaw_rate: 0.0 }
     }
 
     #[test]
     fn base_link_wind_is_rotated_into_odom() {
-        let p = WindParams { filter_tau: 0.0, ego_motion: false, ..Default::default() };
+        let p = WindParams { filter_tau: 0.0, relative: false, ..Default::default() };
         let mut w = WindEstimator::new(p);
         // Robot facing +y (yaw pi/2); air moving toward the robot's left (+y body) goes to -x in
         // odom, so it comes from +x: upwind heading 0.
@@ -114,7 +117,7 @@ mod tests {
     }
 
     #[test]
-    fn ego_motion_is_added_back_and_the_filter_is_first_order() {
+    fn relative_wind_gets_the_robot_velocity_back_and_the_filter_is_first_order() {
         let mut w = WindEstimator::new(WindParams { filter_tau: 1.0, ..Default::default() });
         // Driving forward at 0.5 m/s in still air reads 0.5 m/s toward -x (see the simulator's
         // anemometer contract): corrected, the wind is zero.
@@ -124,5 +127,21 @@ mod tests {
         assert!(w.on_wind(SECOND, WindObs { air: Vec2::new(-1.0, 0.0), in_odom: true }, None));
         assert_abs_diff_eq!(w.view().speed, 1.0 - (-1.0f64).exp(), epsilon = 1e-12);
         assert_abs_diff_eq!(w.upwind().expect("wind"), 0.0, epsilon = 1e-12);
+    }
+
+    #[test]
+    fn odom_frame_wind_is_true_wind_and_the_lever_arm_counts() {
+        let p = WindParams { filter_tau: 0.0, anemometer_x: 0.5, ..Default::default() };
+        let mut w = WindEstimator::new(p);
+        // An odom-frame reading is already over the ground: driving does not change it.
+        assert!(w.on_wind(0, WindObs { air: Vec2::new(-1.0, 0.0), in_odom: true }, Some(&odom(0.0, Vec2::new(0.8, 0.0)))));
+        assert_abs_diff_eq!(w.view().speed, 1.0, epsilon = 1e-12);
+        // Turning in place at 1 rad/s in still air, an anemometer 0.5 m ahead moves at 0.5 m/s
+        // to the left (v = omega x r, rigid-body kinematics) and reads 0.5 m/s to the right.
+        let mut turning = odom(0.0, Vec2::ZERO);
+        turning.yaw_rate = 1.0;
+        assert!(w.on_wind(1, WindObs { air: Vec2::new(0.0, -0.5), in_odom: false }, Some(&turning)));
+        assert_abs_diff_eq!(w.view().speed, 0.0, epsilon = 1e-12);
+        assert_eq!(w.upwind(), None, "still air has no direction");
     }
 }

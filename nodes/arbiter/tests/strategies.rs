@@ -49,6 +49,7 @@ fn spiral_grows_as_r_equals_b_theta_and_ignores_the_wind() {
     let mut p = params(StrategyKind::Spiral);
     p.spiral.spacing = 0.5;
     p.spiral.max_radius = 1.6;
+    p.cast.on_limit = sillage_arbiter::params::LimitAction::GiveUp;
     let mut sim = Sim::new(p, Pose2::default(), WIND_TO_MINUS_X, odor(0.0));
     sim.feed.wind = false; // no wind at all: the spiral does not need it
     sim.run(s(120.0));

@@ -38,7 +38,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let hold: f64 = args.get(4).map(|s| s.parse()).transpose()?.unwrap_or(2.0);
     let config = sillage_stack::StackConfig { params_file: std::env::var_os("SIM_PARAMS").map(Into::into), ..Default::default() };
     let sim = Sim {
-        stack: StackSetup { strategy: None, config },
+        stack: StackSetup { strategy: None, config, ..Default::default() },
         world: WorldParams::default(),
         options: RunOptions { timeline_period: Some(0.1), ..Default::default() },
         scenario,

@@ -70,7 +70,8 @@ pub fn geometry_overrides(s: &Scenario) -> Vec<(NodeKind, Value)> {
         DriveKind::DiffDrive => "diff_drive",
         DriveKind::Holonomic => "holonomic",
     };
-    let mut arbiter = vec![("base", Value::from(base))];
+    let anemometer = map(vec![("anemometer_x", Value::from(s.anemometer.position[0])), ("anemometer_y", Value::from(s.anemometer.position[1]))]);
+    let mut arbiter = vec![("base", Value::from(base)), ("wind", anemometer)];
     if let Some(l) = &s.laser {
         arbiter.push(("obstacle", map(vec![("scan_yaw", Value::from(l.mount[2]))])));
     }

@@ -9,10 +9,10 @@
 //! length / speed, so a blocked robot moves on). After `cast.max_legs` legs the caster reports
 //! [`CastStep::Limit`].
 
-use super::{Context, Decision, Phase};
+use super::{Context, Decision, Phase, Sweep};
 use crate::drive::Motion;
 use crate::geometry::Vec2;
-use crate::params::{CastParams, LimitAction};
+use crate::params::{CastParams, LimitAction, SweepParams};
 use sillage_core::time::nanos;
 use sillage_core::Nanos;
 
@@ -107,12 +107,23 @@ pub enum Ending {
     Homing(Homing),
     /// Search over: waiting for a contact (WAITING).
     Done,
+    /// Searching on: acquisition sweeps around the most likely region (CASTING).
+    Search(Sweep),
 }
 
 impl Ending {
     /// The ending for `cast.on_limit`, and the first decision; `why` says which limit.
-    pub fn begin(p: &CastParams, anchor: Vec2, why: &str, ctx: &Context) -> (Ending, Decision) {
+    pub fn begin(p: &CastParams, sw: &SweepParams, anchor: Vec2, why: &str, ctx: &Context) -> (Ending, Decision) {
         match p.on_limit {
+            LimitAction::Search => {
+                let (origin, around) = match ctx.posterior {
+                    Some(q) => (q.mean, "the posterior mean"),
+                    None => (anchor, "the last contact"),
+                };
+                let mut sweep = Sweep::start(origin, sw, p, ctx);
+                let motion = sweep.step(sw, p, ctx);
+                (Ending::Search(sweep), Decision { phase: Phase::Casting, reason: format!("{why}: sweeping around {around}").into(), motion })
+            }
             LimitAction::GiveUp => (Ending::Done, Decision::wait(format!("{why}: giving up"))),
             LimitAction::Return => {
                 let h = Homing { target: anchor };
@@ -123,8 +134,9 @@ impl Ending {
     }
 
     /// One step of the ending.
-    pub fn step(&mut self, p: &CastParams, ctx: &Context) -> Decision {
-        match *self {
+    pub fn step(&mut self, p: &CastParams, sw: &SweepParams, ctx: &Context) -> Decision {
+        match self {
+            Ending::Search(sweep) => Decision { phase: Phase::Casting, reason: "sweeping for the plume".into(), motion: sweep.step(sw, p, ctx) },
             Ending::Done => Decision::wait("search over: waiting for a contact"),
             Ending::Homing(h) => match h.step(ctx, p.speed, p.arrive_tolerance) {
                 Some(motion) => Decision { phase: Phase::Casting, reason: "returning to the last contact".into(), motion },

@@ -1,19 +1,21 @@
 //! `cast_surge`: surge while in contact, cast after a loss (the default strategy).
 //!
-//! Contract: WAITING until the first contact. In contact: SURGING along [`surge_heading`] at
+//! Contract: before the first contact, plume acquisition: CASTING along a [`Sweep`] around the
+//! position of the first step (crosswind legs widening downwind). In contact: SURGING along [`surge_heading`] at
 //! `surge.speed` (straight ahead when neither wind nor bearing gives a direction). When the
 //! contact is lost (`contact.loss_timeout` without a hit): CASTING with a [`Caster`] anchored at
 //! the last contact point across the upwind heading at the loss (the surge heading when the
 //! wind is unknown). A new contact returns to SURGING and the next cast starts again from the
 //! first leg. After `cast.max_legs` legs `cast.on_limit` applies ([`Ending`]).
 
-use super::{contact_reason, loss_reason, surge_heading, upwind, CastStep, Caster, Context, Decision, Ending, Phase, Strategy};
+use super::{contact_reason, loss_reason, surge_heading, upwind, CastStep, Caster, Context, Decision, Ending, Phase, Strategy, Sweep};
 use crate::drive::Motion;
-use crate::params::{CastParams, SurgeParams};
+use crate::params::{CastParams, SurgeParams, SweepParams};
 
 #[derive(Debug, Clone, PartialEq)]
 enum State {
     Idle,
+    Acquire(Sweep),
     Surge,
     Cast(Caster),
     End(Ending),
@@ -24,13 +26,14 @@ enum State {
 pub struct CastSurge {
     surge: SurgeParams,
     cast: CastParams,
+    sweep: SweepParams,
     state: State,
 }
 
 impl CastSurge {
     /// A strategy waiting for its first contact.
-    pub fn new(surge: SurgeParams, cast: CastParams) -> Self {
-        CastSurge { surge, cast, state: State::Idle }
+    pub fn new(surge: SurgeParams, cast: CastParams, sweep: SweepParams) -> Self {
+        CastSurge { surge, cast, sweep, state: State::Idle }
     }
 
     fn surge(&self, ctx: &Context) -> Motion {
@@ -50,7 +53,13 @@ impl Strategy for CastSurge {
             return Decision { phase: Phase::Surging, reason, motion: self.surge(ctx) };
         }
         match &mut self.state {
-            State::Idle => Decision::wait("waiting for a first contact"),
+            State::Idle => {
+                let mut sweep = Sweep::start(ctx.pose.position, &self.sweep, &self.cast, ctx);
+                let motion = sweep.step(&self.sweep, &self.cast, ctx);
+                self.state = State::Acquire(sweep);
+                Decision { phase: Phase::Casting, reason: "no contact yet: sweeping across the wind for the plume".into(), motion }
+            }
+            State::Acquire(sweep) => Decision { phase: Phase::Casting, reason: "sweeping for the plume".into(), motion: sweep.step(&self.sweep, &self.cast, ctx) },
             State::Surge => {
                 let anchor = ctx.contact.point.unwrap_or(ctx.pose.position);
                 let across = upwind(ctx).or_else(|| surge_heading(ctx, &self.surge)).unwrap_or(ctx.pose.yaw);
@@ -67,12 +76,12 @@ impl Strategy for CastSurge {
                 CastStep::Leg(motion) => Decision { phase: Phase::Casting, reason: "casting".into(), motion },
                 CastStep::Limit => {
                     let why = format!("cast limit ({} legs without contact)", self.cast.max_legs);
-                    let (ending, d) = Ending::begin(&self.cast, caster.anchor(), &why, ctx);
+                    let (ending, d) = Ending::begin(&self.cast, &self.sweep, caster.anchor(), &why, ctx);
                     self.state = State::End(ending);
                     d
                 }
             },
-            State::End(ending) => ending.step(&self.cast, ctx),
+            State::End(ending) => ending.step(&self.cast, &self.sweep, ctx),
         }
     }
 
@@ -90,11 +99,13 @@ mod tests {
 
     #[test]
     fn surge_then_cast_then_give_up_or_return() {
-        for action in [LimitAction::GiveUp, LimitAction::Return] {
+        for action in [LimitAction::GiveUp, LimitAction::Return, LimitAction::Search] {
             let cast = CastParams { max_legs: 2, on_limit: action, ..Default::default() };
-            let mut s = CastSurge::new(SurgeParams::default(), cast.clone());
+            let mut s = CastSurge::new(SurgeParams::default(), cast.clone(), SweepParams::default());
             let pose = Pose2 { position: Vec2::new(2.0, 0.0), yaw: 0.0 };
-            assert_eq!(s.step(&ctx(0, pose, false, 0)).phase, Phase::Waiting);
+            let first = s.step(&ctx(0, pose, false, 0));
+            assert_eq!(first.phase, Phase::Casting, "no contact yet: acquisition sweep");
+            assert!(first.reason.contains("sweeping"), "{}", first.reason);
             let d = s.step(&ctx(1, pose, true, 1));
             assert_eq!(d.phase, Phase::Surging);
             assert_eq!(d.motion.heading_target(), 0.0, "upwind is +x");
@@ -118,6 +129,17 @@ mod tests {
                     assert!(last.reason.contains("returning"), "{}", last.reason);
                     let home = s.step(&ctx(10, Pose2::default(), false, 1));
                     assert_eq!(home.phase, Phase::Waiting, "at the anchor: {}", home.reason);
+                }
+                LimitAction::Search => {
+                    assert_eq!(last.phase, Phase::Casting);
+                    assert!(last.reason.contains("sweeping around the last contact"), "{}", last.reason);
+                    // It never ends: a thousand steps later it is still sweeping.
+                    let mut p = Pose2::default();
+                    for k in 0..1000 {
+                        let State::End(Ending::Search(w)) = &s.state else { panic!("searching") };
+                        p.position = w.target();
+                        assert_eq!(s.step(&ctx(20 + k, p, false, 1)).phase, Phase::Casting);
+                    }
                 }
             }
         }

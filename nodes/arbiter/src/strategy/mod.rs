@@ -30,18 +30,21 @@ mod cast;
 mod cast_surge;
 mod reactive;
 mod spiral;
+mod sweep;
 mod zigzag;
 
 pub use cast::{CastStep, Caster, Ending, Homing};
 pub use cast_surge::CastSurge;
 pub use reactive::Reactive;
 pub use spiral::Spiral;
+pub use sweep::Sweep;
 pub use zigzag::Zigzag;
 
 use crate::contact::ContactView;
 use crate::drive::Motion;
 use crate::geometry::{wrap_angle, Pose2};
 use crate::modes::Mode;
+use crate::posterior::Posterior;
 use crate::params::{Params, StrategyKind, SurgeParams};
 use crate::wind::WindView;
 use sillage_core::Nanos;
@@ -73,6 +76,8 @@ pub struct Context {
     pub contact: ContactView,
     /// Control period [s].
     pub period: f64,
+    /// The source posterior, when one is fresh and `cues.use_posterior` is on.
+    pub posterior: Option<Posterior>,
 }
 
 /// The search phase a strategy is in (the node adds HALTED and DECLARED).
@@ -131,10 +136,10 @@ pub trait Strategy: Send + std::fmt::Debug {
 /// The built-in strategy selected by `p.strategy`.
 pub fn build(p: &Params) -> Box<dyn Strategy> {
     match p.strategy {
-        StrategyKind::CastSurge => Box::new(CastSurge::new(p.surge.clone(), p.cast.clone())),
-        StrategyKind::Zigzag => Box::new(Zigzag::new(p.surge.clone(), p.cast.clone(), p.zigzag.clone())),
-        StrategyKind::Spiral => Box::new(Spiral::new(p.surge.clone(), p.cast.clone(), p.spiral.clone())),
-        StrategyKind::Reactive => Box::new(Reactive::new(p.reactive.clone())),
+        StrategyKind::CastSurge => Box::new(CastSurge::new(p.surge.clone(), p.cast.clone(), p.sweep.clone())),
+        StrategyKind::Zigzag => Box::new(Zigzag::new(p.surge.clone(), p.cast.clone(), p.sweep.clone(), p.zigzag.clone())),
+        StrategyKind::Spiral => Box::new(Spiral::new(p.surge.clone(), p.cast.clone(), p.sweep.clone(), p.spiral.clone())),
+        StrategyKind::Reactive => Box::new(Reactive::new(p.reactive.clone(), p.cast.clone(), p.sweep.clone())),
     }
 }
 
@@ -181,6 +186,7 @@ pub(crate) mod test_support {
             bearing: None,
             contact: ContactView { in_contact, age: Some(if in_contact { 0.0 } else { 3.0 }), point: Some(Vec2::ZERO), hits, cause: None },
             period: 0.1,
+            posterior: None,
         }
     }
 }

@@ -14,7 +14,7 @@
 use super::{contact_reason, loss_reason, upwind, Context, Decision, Ending, Phase, Strategy};
 use crate::drive::Motion;
 use crate::geometry::Vec2;
-use crate::params::{CastParams, SpiralParams, SurgeParams};
+use crate::params::{CastParams, SpiralParams, SurgeParams, SweepParams};
 use std::f64::consts::TAU;
 
 #[derive(Debug, Clone, PartialEq)]
@@ -30,6 +30,7 @@ enum State {
 pub struct Spiral {
     surge: SurgeParams,
     cast: CastParams,
+    sweep: SweepParams,
     p: SpiralParams,
     state: State,
 }
@@ -41,8 +42,8 @@ pub fn spiral_point(center: Vec2, b: f64, phi0: f64, theta: f64) -> Vec2 {
 
 impl Spiral {
     /// A strategy that has not started.
-    pub fn new(surge: SurgeParams, cast: CastParams, p: SpiralParams) -> Self {
-        Spiral { surge, cast, p, state: State::Idle }
+    pub fn new(surge: SurgeParams, cast: CastParams, sweep: SweepParams, p: SpiralParams) -> Self {
+        Spiral { surge, cast, sweep, p, state: State::Idle }
     }
 
     fn b(&self) -> f64 {
@@ -79,7 +80,7 @@ impl Spiral {
         }
         if b * *theta > self.p.max_radius {
             let why = format!("spiral limit (radius {:.2} m > {:.2} m)", b * *theta, self.p.max_radius);
-            let (ending, d) = Ending::begin(&self.cast, center, &why, ctx);
+            let (ending, d) = Ending::begin(&self.cast, &self.sweep, center, &why, ctx);
             self.state = State::End(ending);
             return d;
         }
@@ -114,7 +115,7 @@ impl Strategy for Spiral {
                 self.start(center, ctx, format!("{}: spiral around the last contact", loss_reason(ctx)))
             }
             State::Spiral { .. } => self.pursue(ctx),
-            State::End(e) => e.step(&self.cast, ctx),
+            State::End(e) => e.step(&self.cast, &self.sweep, ctx),
         }
     }
 
@@ -133,7 +134,7 @@ mod tests {
     #[test]
     fn the_carrot_walks_an_archimedean_spiral() {
         let p = SpiralParams { spacing: 1.0, lookahead: 0.2, max_radius: 2.0, ..Default::default() };
-        let mut s = Spiral::new(SurgeParams::default(), CastParams::default(), p);
+        let mut s = Spiral::new(SurgeParams::default(), CastParams { on_limit: crate::params::LimitAction::GiveUp, ..Default::default() }, SweepParams::default(), p);
         let mut pose = Pose2::default();
         let d = s.step(&ctx(0, pose, false, 0));
         assert_eq!(d.phase, Phase::Casting);

@@ -1,6 +1,6 @@
 //! `zigzag`: an upwind zigzag that opens up after a loss.
 //!
-//! Contract: WAITING until the first contact. Then the robot runs legs at `+-angle` (left
+//! Contract: before the first contact, plume acquisition along a [`Sweep`] (CASTING). Then the robot runs legs at `+-angle` (left
 //! first, alternating) around the surge heading ([`surge_heading`]), at `surge.speed`; a leg
 //! ends after `leg_length` metres of travel. Every new contact resets the angle to
 //! `zigzag.angle_initial` and the leg length to `zigzag.leg_length`. Each leg that ends out of
@@ -9,14 +9,15 @@
 //! SURGING while in contact, CASTING out of contact; after `cast.max_legs` legs without contact
 //! `cast.on_limit` applies ([`Ending`], homing to the last contact point).
 
-use super::{contact_reason, loss_reason, surge_heading, Context, Decision, Ending, Phase, Strategy};
+use super::{contact_reason, loss_reason, surge_heading, Context, Decision, Ending, Phase, Strategy, Sweep};
 use crate::drive::Motion;
 use crate::geometry::Vec2;
-use crate::params::{CastParams, SurgeParams, ZigzagParams};
+use crate::params::{CastParams, SurgeParams, SweepParams, ZigzagParams};
 
 #[derive(Debug, Clone, PartialEq)]
 enum State {
     Idle,
+    Acquire(Sweep),
     Run { from: Vec2, side: f64, angle: f64, length: f64, legs_out: u32, phase: Phase },
     End(Ending),
 }
@@ -26,6 +27,7 @@ enum State {
 pub struct Zigzag {
     surge: SurgeParams,
     cast: CastParams,
+    sweep: SweepParams,
     z: ZigzagParams,
     seen_hits: u64,
     state: State,
@@ -33,8 +35,8 @@ pub struct Zigzag {
 
 impl Zigzag {
     /// A strategy waiting for its first contact.
-    pub fn new(surge: SurgeParams, cast: CastParams, z: ZigzagParams) -> Self {
-        Zigzag { surge, cast, z, seen_hits: 0, state: State::Idle }
+    pub fn new(surge: SurgeParams, cast: CastParams, sweep: SweepParams, z: ZigzagParams) -> Self {
+        Zigzag { surge, cast, sweep, z, seen_hits: 0, state: State::Idle }
     }
 
     /// The current zigzag angle [rad] (`None` when not zigzagging).
@@ -78,8 +80,14 @@ impl Strategy for Zigzag {
         let (max_len, max_legs) = (self.cast.leg_max.max(self.z.leg_length), self.cast.max_legs);
         let State::Run { from, side, angle, length, legs_out, phase } = &mut self.state else {
             return match &mut self.state {
-                State::End(e) => e.step(&self.cast, ctx),
-                _ => Decision::wait("waiting for a first contact"),
+                State::End(e) => e.step(&self.cast, &self.sweep, ctx),
+                State::Acquire(w) => Decision { phase: Phase::Casting, reason: "sweeping for the plume".into(), motion: w.step(&self.sweep, &self.cast, ctx) },
+                _ => {
+                    let mut w = Sweep::start(ctx.pose.position, &self.sweep, &self.cast, ctx);
+                    let motion = w.step(&self.sweep, &self.cast, ctx);
+                    self.state = State::Acquire(w);
+                    Decision { phase: Phase::Casting, reason: "no contact yet: sweeping across the wind for the plume".into(), motion }
+                }
             };
         };
         if ctx.pose.position.distance(*from) >= *length {
@@ -94,7 +102,7 @@ impl Strategy for Zigzag {
         if *legs_out >= max_legs {
             let anchor = ctx.contact.point.unwrap_or(ctx.pose.position);
             let why = format!("zigzag limit ({max_legs} legs without contact)");
-            let (ending, d) = Ending::begin(&self.cast, anchor, &why, ctx);
+            let (ending, d) = Ending::begin(&self.cast, &self.sweep, anchor, &why, ctx);
             self.state = State::End(ending);
             return d;
         }
@@ -127,7 +135,7 @@ mod tests {
     #[test]
     fn legs_alternate_and_open_up_out_of_contact() {
         let z = ZigzagParams { leg_length: 1.0, angle_initial: 0.4, angle_growth: 1.5, angle_max: 1.2 };
-        let mut s = Zigzag::new(SurgeParams::default(), CastParams { max_legs: 3, ..Default::default() }, z);
+        let mut s = Zigzag::new(SurgeParams::default(), CastParams { max_legs: 3, on_limit: crate::params::LimitAction::Return, ..Default::default() }, SweepParams::default(), z);
         let mut pose = Pose2::default();
         let d = s.step(&ctx(0, pose, true, 1));
         assert_eq!(d.phase, Phase::Surging);

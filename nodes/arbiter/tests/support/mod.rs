@@ -51,6 +51,11 @@ pub enum Out {
     Source(Nanos, PointStamped),
 }
 
+/// Events of one sample given the position [m, odom] and time [ns] (replaces `Odor::rising`).
+pub type Events = Box<dyn Fn(Vec2, Nanos) -> Vec<OdorEvent>>;
+/// Extra inputs at each sample given the time and the pose: (topic, message).
+pub type Extra = Box<dyn FnMut(Nanos, &Pose2) -> Vec<(&'static str, Msg)>>;
+
 /// The closed loop.
 pub struct Sim {
     pub ex: Executor,
@@ -63,6 +68,10 @@ pub struct Sim {
     pub outs: Vec<Out>,
     pub poses: Vec<(Nanos, Pose2)>,
     pub holonomic: bool,
+    /// When set, the odor events of each sample.
+    pub events: Option<Events>,
+    /// When set, more inputs at each sample (scan, posterior).
+    pub extra: Option<Extra>,
 }
 
 pub fn odom_msg(t: Nanos, pose: &Pose2, vel: &Cmd) -> Msg {
@@ -142,6 +151,8 @@ impl Sim {
             feed: Feed { wind: true, odom: true, chem: true },
             outs: Vec::new(),
             poses: Vec::new(),
+            events: None,
+            extra: None,
             holonomic,
         }
     }
@@ -165,10 +176,21 @@ impl Sim {
         }
         if self.feed.chem {
             let o = (self.plume)(self.pose.position, t);
-            self.inject("/odor_events", events_msg(t, o.rising));
+            let events = match &self.events {
+                Some(f) => OdorEventArray { header: Header::new(t, "base_link"), events: f(self.pose.position, t) }.into(),
+                None => events_msg(t, o.rising),
+            };
+            self.inject("/odor_events", events);
             self.inject("/plume_features", features_msg(t, o.features));
             let b = o.bearing.map(|(h, c)| (sillage_arbiter::geometry::wrap_angle(h - self.pose.yaw), c));
             self.inject("/odor_bearing", bearing_msg(t, b));
+        }
+        if let Some(mut f) = self.extra.take() {
+            let pose = self.pose;
+            for (topic, m) in f(t, &pose) {
+                self.inject(topic, m);
+            }
+            self.extra = Some(f);
         }
     }
 

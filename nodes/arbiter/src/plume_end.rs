@@ -7,7 +7,7 @@
 //! successive re-acquisitions cluster at the source; Li, Farrell, Pang and Arrieta, IEEE
 //! Transactions on Robotics 22(2), 2006, from memory); the thresholds here are ours.
 //!
-//! Contract (thresholds are the `declare.front.*` parameters):
+//! Contract (thresholds are the `declare.plume_end.*` parameters):
 //! - a *contact period* runs from a contact to its loss; its *front* is the upwind-most odom
 //!   position at which a rising-event hit arrived in it, upwind taken as the heading at the
 //!   loss. Periods with fewer than `min_hits` event hits are ignored (a lone spurious event);
@@ -15,13 +15,16 @@
 //!   metres further upwind (progress: the stall count restarts); a front within `radius` of
 //!   the best that does not advance it is a *stall* and the best front moves to the mean of
 //!   the fronts that stalled on it; any other front (far downwind or aside) changes nothing;
+//! - a period whose front hit arrived while the way ahead was blocked by an obstacle
+//!   ([`crate::avoid`]) is dropped: a plume that ends at an obstacle face says where the robot
+//!   was stopped, not where the odor starts;
 //! - the source is declared once `min_stalls` stalls have accumulated, at the best front.
 //!
 //! Only event hits place fronts: windowed plume features outlast the plume by their window,
 //! so a position where they still pass is not where the odor was.
 
 use crate::geometry::Vec2;
-use crate::params::FrontParams;
+use crate::params::PlumeEndParams;
 use std::collections::VecDeque;
 
 /// Most hit points remembered per contact period (the oldest are forgotten first).
@@ -29,31 +32,32 @@ const MAX_POINTS: usize = 256;
 
 /// The plume-front tracker.
 #[derive(Debug, Clone)]
-pub struct FrontTracker {
-    p: FrontParams,
-    period: VecDeque<Vec2>,
+pub struct PlumeEndTracker {
+    p: PlumeEndParams,
+    period: VecDeque<(Vec2, bool)>,
     best: Option<Vec2>,
     stalled: Vec<Vec2>,
 }
 
-impl FrontTracker {
+impl PlumeEndTracker {
     /// No contact yet.
-    pub fn new(p: FrontParams) -> Self {
-        FrontTracker { p, period: VecDeque::new(), best: None, stalled: Vec::new() }
+    pub fn new(p: PlumeEndParams) -> Self {
+        PlumeEndTracker { p, period: VecDeque::new(), best: None, stalled: Vec::new() }
     }
 
     /// Replaces the thresholds and forgets the evidence.
-    pub fn set_params(&mut self, p: FrontParams) {
+    pub fn set_params(&mut self, p: PlumeEndParams) {
         self.p = p;
         self.reset();
     }
 
-    /// A rising-event hit with the robot at `at` [m, odom].
-    pub fn on_event_hit(&mut self, at: Vec2) {
+    /// A rising-event hit with the robot at `at` [m, odom]; `blocked`: an obstacle blocked
+    /// the way ahead at that moment.
+    pub fn on_event_hit(&mut self, at: Vec2, blocked: bool) {
         if self.period.len() == MAX_POINTS {
             self.period.pop_front();
         }
-        self.period.push_back(at);
+        self.period.push_back((at, blocked));
     }
 
     /// The contact was lost, the upwind heading being `upwind` [rad, odom] (`None`: unknown,
@@ -65,7 +69,10 @@ impl FrontTracker {
             return;
         }
         let u = Vec2::from_angle(upwind);
-        let Some(front) = points.into_iter().max_by(|a, b| a.dot(u).total_cmp(&b.dot(u))) else { return };
+        let Some((front, blocked)) = points.into_iter().max_by(|a, b| a.0.dot(u).total_cmp(&b.0.dot(u))) else { return };
+        if blocked {
+            return;
+        }
         let Some(best) = self.best else {
             self.best = Some(front);
             return;
@@ -126,15 +133,15 @@ mod tests {
 
     const WEST: f64 = std::f64::consts::PI; // upwind: the wind blows toward +x
 
-    fn period(t: &mut FrontTracker, xs: &[f64], y: f64) {
+    fn period(t: &mut PlumeEndTracker, xs: &[f64], y: f64) {
         for &x in xs {
-            t.on_event_hit(Vec2::new(x, y));
+            t.on_event_hit(Vec2::new(x, y), false);
         }
         t.on_loss(Some(WEST));
     }
 
-    fn tracker() -> FrontTracker {
-        FrontTracker::new(FrontParams { enabled: true, min_hits: 2, advance: 0.3, radius: 0.6, min_stalls: 2 })
+    fn tracker() -> PlumeEndTracker {
+        PlumeEndTracker::new(PlumeEndParams { enabled: true, min_hits: 2, advance: 0.3, radius: 0.6, min_stalls: 2 })
     }
 
     #[test]
@@ -164,12 +171,12 @@ mod tests {
         period(&mut t, &[6.0, 5.0], 0.0); // re-acquired far downwind: neither progress nor stall
         period(&mut t, &[2.5, 2.1], 1.5); // aside: 1.5 m off the best front
         assert_eq!((t.stalls(), t.best()), (0, Some(Vec2::new(2.0, 0.0))));
-        t.on_event_hit(Vec2::new(0.0, 0.0));
-        t.on_event_hit(Vec2::new(0.0, 0.0));
+        t.on_event_hit(Vec2::new(0.0, 0.0), false);
+        t.on_event_hit(Vec2::new(0.0, 0.0), false);
         t.on_loss(None);
         assert_eq!(t.best(), Some(Vec2::new(2.0, 0.0)), "no wind: no upwind end");
         let mut off = t.clone();
-        off.set_params(FrontParams { enabled: false, ..FrontParams::default() });
+        off.set_params(PlumeEndParams { enabled: false, ..PlumeEndParams::default() });
         assert!(off.best().is_none(), "new parameters forget the evidence");
         period(&mut off, &[2.0, 2.0], 0.0);
         period(&mut off, &[2.0, 2.0], 0.0);
@@ -178,11 +185,26 @@ mod tests {
     }
 
     #[test]
+    fn a_period_blocked_by_an_obstacle_never_counts() {
+        let mut t = tracker();
+        for _ in 0..5 {
+            t.on_event_hit(Vec2::new(4.1, 0.0), false);
+            t.on_event_hit(Vec2::new(4.0, 0.0), true);
+            t.on_loss(Some(WEST));
+        }
+        assert_eq!((t.best(), t.stalls()), (None, 0), "five ends at an obstacle face: nothing");
+        period(&mut t, &[4.1, 4.0], 0.0);
+        period(&mut t, &[4.1, 4.0], 0.0);
+        period(&mut t, &[4.1, 4.0], 0.0);
+        assert!(t.ready().is_some(), "the same ends, unblocked, declare");
+    }
+
+    #[test]
     fn the_front_is_taken_upwind_at_the_loss() {
         let mut t = tracker();
         // The wind blows toward +y: upwind is -y, so the front is the point with the least y.
         for p in [Vec2::new(0.0, 3.0), Vec2::new(5.0, 1.0), Vec2::new(-2.0, 2.0)] {
-            t.on_event_hit(p);
+            t.on_event_hit(p, false);
         }
         t.on_loss(Some(-std::f64::consts::FRAC_PI_2));
         assert_eq!(t.best(), Some(Vec2::new(5.0, 1.0)));
@@ -202,13 +224,13 @@ mod tests {
             min_stalls in 1u32..4,
             enabled in proptest::bool::ANY,
         ) {
-            let p = FrontParams { enabled, min_hits, advance: 0.3, radius: 1.0, min_stalls };
-            let mut t = FrontTracker::new(p);
+            let p = PlumeEndParams { enabled, min_hits, advance: 0.3, radius: 1.0, min_stalls };
+            let mut t = PlumeEndTracker::new(p);
             let (mut lo, mut hi) = (Vec2::new(f64::INFINITY, f64::INFINITY), Vec2::new(f64::NEG_INFINITY, f64::NEG_INFINITY));
             for (points, upwind) in &periods {
                 let before = (t.best(), t.stalls());
                 for &(x, y) in points {
-                    t.on_event_hit(Vec2::new(x, y));
+                    t.on_event_hit(Vec2::new(x, y), false);
                 }
                 t.on_loss(Some(*upwind));
                 if points.len() < min_hits as usize {
