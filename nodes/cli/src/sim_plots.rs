@@ -173,7 +173,7 @@ fn cue_errors<DB: DrawingBackend>(bearing: &Area<DB>, distance: &Area<DB>, ep: &
     let pts: Vec<(f64, f64)> = tl.t.iter().zip(&tl.distance_log_ratio).filter(|(_, v)| v.is_finite()).map(|(t, v)| (*t, *v)).collect();
     let top = pts.iter().fold(1.0f64, |m, p| m.max(p.1.abs())).min(5.0);
     let mut chart = ChartBuilder::on(distance)
-        .caption(format!("{ep}: distance estimate (plume_features) against the true distance"), ("sans-serif", 15))
+        .caption(format!("{ep}: distance estimate (plume_features) against the true distance{}", if pts.is_empty() { ": none published (uncalibrated)" } else { "" }), ("sans-serif", 15))
         .margin(6)
         .x_label_area_size(28)
         .y_label_area_size(64)

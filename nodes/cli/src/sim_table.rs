@@ -202,7 +202,7 @@ pub fn run(args: Args) -> Result<()> {
                 let sim = &sims[c].2;
                 let r = sim.run_episode(EpisodeSpec::nth(&sim.scenario, args.seed, i), &mut |_| {}).map_err(anyhow::Error::from);
                 let n = done.fetch_add(1, Ordering::Relaxed) + 1;
-                if !args.quiet && (n % 10 == 0 || n == total) {
+                if !args.quiet && (n.is_multiple_of(10) || n == total) {
                     eprint!("\rsim-table: {n}/{total} episodes, {:.0} s", started.elapsed().as_secs_f64());
                 }
                 r.with_context(|| format!("{} strategy {:?} episode {i}", sims[c].1.display(), sims[c].2.stack.strategy))
@@ -256,12 +256,12 @@ mod tests {
     #[test]
     fn folders_expand_to_their_scenarios_without_the_schema() {
         let root = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../config/scenarios");
-        let files = scenario_files(&[root.clone()]).expect("lists");
+        let files = scenario_files(std::slice::from_ref(&root)).expect("lists");
         assert!(files.iter().any(|f| f.ends_with("demo.yaml")), "{files:?}");
         assert!(files.iter().all(|f| f.extension().is_some_and(|x| x == "yaml") && !f.to_string_lossy().contains("SCHEMA")), "{files:?}");
         let empty = std::env::temp_dir().join(format!("sillage-sim-table-{}", std::process::id()));
         std::fs::create_dir_all(&empty).expect("dir");
-        let e = scenario_files(&[empty.clone()]).expect_err("empty folder");
+        let e = scenario_files(std::slice::from_ref(&empty)).expect_err("empty folder");
         assert!(e.to_string().contains("no scenario files"), "{e}");
         let _ = std::fs::remove_dir_all(&empty);
     }
