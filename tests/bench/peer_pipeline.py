@@ -15,7 +15,7 @@ to get events and bouts out of a rosbag2 bag with the usual libraries.
    "Send-on-delta concept", Sensors 6(1):49-63, 2006) in a plain Python loop;
 3. wind speed and direction, odometry path length (numpy).
 
-The method mirrors what sillage's nodes do (references in shared/references.md) but is not
+The method mirrors what sillage's nodes do (references in docs/references.md) but is not
 meant to give the same numbers; the benchmark compares the cost of the whole job.
 
 Prints one summary line on stdout and the read / compute split on stderr.

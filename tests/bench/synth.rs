@@ -8,7 +8,7 @@
 //!   0.3 s half-sine pulse of exponential amplitude (mean 8 ppm); the right sensor sees it
 //!   0.25 s after the left one.
 //! - Sensor: conductance ratio sqrt(1 + C / 5 ppm) through an asymmetric first-order lag (tau
-//!   1.8 s rising, 11.1 s falling, the values shared/references.md quotes as unverified: here
+//!   1.8 s rising, 11.1 s falling, the values docs/references.md quotes as unverified: here
 //!   they only shape a test signal), Rs = R0 / ratio with R0 = 42 and 39 kohm, 0.2 % noise,
 //!   rounded to 0.1 ohm.
 //! - Log time = header stamp + 0.7 ms (chem), 0.9 ms (odom), 1.1 ms (wind), so the merged stream

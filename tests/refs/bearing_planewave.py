@@ -3,7 +3,7 @@
 
 Reference values for the bearing decoder's geometry, computed with general-purpose libraries:
 
-  * Two sensors, stationary (the plane-wave relation of shared/references.md "Bilateral
+  * Two sensors, stationary (the plane-wave relation of docs/references.md "Bilateral
     direction": lag = d sin(theta) / U): the front-half bearing `numpy.arcsin(numpy.clip(U lag
     / d, -1, 1))` (numpy 2.4.6) for given delays, spacings and air speeds, including lags
     beyond the plane-wave bound (clamped) and the published check values (d = 0.2 m,

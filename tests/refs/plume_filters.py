@@ -15,7 +15,7 @@ to run with other versions): numpy 2.4.6, scipy 1.17.1.
   * Butterworth low-pass: scipy.signal.butter(N, fc, output="sos", fs=fs) + sosfilt.
   * First difference: lfilter([1/dt, -1/dt], [1], u).
   * Exponential smoothing: the first-order IIR lfilter([alpha], [1, alpha - 1], d) with
-    alpha = 1 - 2**(-dt / half_life) (half-life form as summarised in shared/references.md).
+    alpha = 1 - 2**(-dt / half_life) (half-life form as summarised in docs/references.md).
   * FIR low-pass differentiator: np.convolve(firwin(N, fc, window="hamming", fs=fs), [1, -1])
     / dt, applied with lfilter.
   Every stage starts at the steady state of its first input: zi = lfilter_zi(b, a) * u[0]
@@ -30,7 +30,7 @@ to run with other versions): numpy 2.4.6, scipy 1.17.1.
 
 Inputs are synthetic (seeded numpy Generator): clean air, then square concentration pulses
 through an asymmetric first-order sensor response (tau_rise 1.8 s, tau_decay 11.1 s, the
-values shared/references.md quotes as unverified; here they only shape a test signal) plus
+values docs/references.md quotes as unverified; here they only shape a test signal) plus
 Gaussian noise, sampled at 100 Hz and 20 Hz.
 
 Output: JSON, floats written by Python's repr (shortest round-trip form).

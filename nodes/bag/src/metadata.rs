@@ -190,7 +190,7 @@ pub struct QosProfile {
 }
 
 impl From<sillage_core::Qos> for QosProfile {
-    /// The profiles of shared/ros2-notes.md: sensor data keep last 5 best effort volatile,
+    /// The rmw QoS profiles (rmw/qos_profiles.h, from memory): sensor data keep last 5 best effort volatile,
     /// reliable keep last 10, latched keep last 1 reliable transient local.
     fn from(q: sillage_core::Qos) -> QosProfile {
         use sillage_core::Qos;

@@ -85,6 +85,8 @@ pub struct BearingDecoder {
     warnings: WarningLog,
     stats: Stats,
     last: Option<Estimate>,
+    /// Stamp and content of the last published bearing (no exact repeat at one instant).
+    last_sent: Option<(Nanos, u64, u64, u64, u8)>,
 }
 
 impl BearingDecoder {
@@ -106,6 +108,7 @@ impl BearingDecoder {
             warnings: WarningLog::default(),
             stats: Stats::default(),
             last: None,
+            last_sent: None,
             array,
             params,
         })
@@ -195,6 +198,14 @@ impl BearingDecoder {
     fn publish(&mut self, now: Nanos, out: &mut Outbox) {
         let e = self.estimate(now);
         let f = e.fused;
+        // Evidence (events, chem) and the timer can all publish at one instant: a message equal
+        // to the one already sent at this stamp says nothing new and is not sent again.
+        let key = (now, f.bearing.to_bits(), f.lag.to_bits(), f.confidence.to_bits(), f.cue);
+        if self.last_sent == Some(key) {
+            self.last = Some(e);
+            return;
+        }
+        self.last_sent = Some(key);
         self.stats.published += 1;
         self.stats.by_cue[usize::from(f.cue.min(3))] += 1;
         let t_used = matches!(f.cue, OdorBearing::TIMING | OdorBearing::FUSED);

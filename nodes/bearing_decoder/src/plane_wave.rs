@@ -1,6 +1,6 @@
 //! The plane-wave relation between inter-sensor lags and the arrival direction.
 //!
-//! Model (shared/references.md, "Bilateral direction"): an odor front is a plane whose normal
+//! Model (docs/references.md, "Bilateral direction"): an odor front is a plane whose normal
 //! points downwind; it reaches sensor `i` at `t_i = t0 + p_i . s` with slowness `s = n / c`,
 //! `n` the unit propagation direction and `c` the front's speed relative to the sensors. The
 //! bearing is the direction the odor comes from, `u = -n`, at angle `theta` CCW from +x in
@@ -151,7 +151,7 @@ mod tests {
 
     #[test]
     fn textbook_check_values() {
-        // shared/references.md "Bilateral direction" (plane-wave relation lag = d sin(theta)/U):
+        // docs/references.md "Bilateral direction" (plane-wave relation lag = d sin(theta)/U):
         // d = 0.2 m, U = 0.5 m/s, theta = 30 deg gives lag = 0.200 s.
         let v0 = Vec2::zeros();
         assert!((pair_lag(&bl(0.2), 30.0 * DEG, 0.5, &v0) - 0.200).abs() < 1e-12);

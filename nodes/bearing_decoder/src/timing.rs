@@ -12,7 +12,7 @@
 //! - matches `n / (n + confidence_matches)` (n: inlier onset pairs; mean per pair for N sensors),
 //! - consistency `1 / (1 + (sigma_theta / bearing_spread)^2)`, with sigma_theta the bearing
 //!   spread the inlier lag spread implies: for two sensors `U sigma_lag / (d cos theta)`
-//!   (shared/references.md, the plane-wave sensitivity; cos theta floored at 0.2 near the
+//!   (docs/references.md, the plane-wave sensitivity; cos theta floored at 0.2 near the
 //!   clamp), for N sensors `c sigma / r` (sigma: lag spread pooled with the fit residual, c: the
 //!   fitted speed, r: the rms pair baseline),
 //! - the inlier fraction,

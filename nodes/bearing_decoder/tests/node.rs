@@ -115,7 +115,7 @@ fn ports_timer_and_none_when_nothing_is_known() {
 
 #[test]
 fn timing_bearing_end_to_end_with_front_back_from_the_wind() {
-    // d = 0.2 m, U = 0.5 m/s, lag 0.2 s: 30 deg in front, or 150 deg behind (references.md).
+    // d = 0.2 m, U = 0.5 m/s, lag 0.2 s: 30 deg in front, or 150 deg behind (docs/references.md).
     for (upwind, want) in [(20.0, 30.0), (170.0, 150.0)] {
         let mut d = Drive::new(event_params());
         d.send(0, IN_WIND, wind(upwind * DEG, 0.5, "base_link"));

@@ -62,7 +62,7 @@ fn correlogram_and_coarse_lag_match_scipy() {
 }
 
 /// Bearings for known delays, spacings and air speeds against numpy.arcsin of the plane-wave
-/// relation lag = d sin(theta) / U (shared/references.md "Bilateral direction"), including
+/// relation lag = d sin(theta) / U (docs/references.md "Bilateral direction"), including
 /// the clamp at |U lag / d| > 1; the mirror candidate is pi - theta.
 #[test]
 fn pair_bearings_match_numpy_arcsin() {

@@ -89,7 +89,7 @@ mod tests {
 
     #[test]
     fn twist_stamped_worked_example_is_76_bytes() {
-        // shared/ros2-notes.md worked example (ROS 2 CDR, XCDR1): header, sec, nanosec, u32 10,
+        // worked example (ROS 2 CDR = OMG XCDR1, checked against rosbags in tests/refs): header, sec, nanosec, u32 10,
         // "base_link\0", 2 pad bytes, 6 float64.
         let m = TwistStamped {
             header: Header::new(1_500_000_000, "base_link"),

@@ -1,7 +1,7 @@
 //! ROS 2 names on the DDS wire: the one place where sillage turns a ROS topic or type name
 //! into the DDS name other ROS 2 implementations expect, and back.
 //!
-//! Contract (the mapping every ROS 2 middleware on DDS uses; shared/ros2-notes.md, "ROS 2 on
+//! Contract (the mapping every ROS 2 middleware on DDS uses; the ROS 2 design article "Topic and Service name mapping to DDS", "ROS 2 on
 //! the DDS wire"):
 //! - a fully qualified ROS topic `/ns/name` is the DDS topic `rt/ns/name` (prefix `rt`, for
 //!   "ROS topic");
@@ -96,7 +96,7 @@ mod tests {
 
     #[test]
     fn topics_get_the_rt_prefix() {
-        // shared/ros2-notes.md, "ROS 2 on the DDS wire": /cmd_vel is rt/cmd_vel.
+        // the ROS 2 design article "Topic and Service name mapping to DDS", "ROS 2 on the DDS wire": /cmd_vel is rt/cmd_vel.
         assert_eq!(dds_topic("/cmd_vel").expect("valid"), "rt/cmd_vel");
         assert_eq!(dds_topic("/robot1/chem").expect("valid"), "rt/robot1/chem");
         assert_eq!(dds_topic("/diagnostics").expect("valid"), "rt/diagnostics");
@@ -124,7 +124,7 @@ mod tests {
 
     #[test]
     fn types_map_to_dds_names_and_back() {
-        // shared/ros2-notes.md: geometry_msgs/msg/Twist is geometry_msgs::msg::dds_::Twist_.
+        // rosidl DDS type naming (common practice of every ROS 2 rmw on DDS): geometry_msgs/msg/Twist is geometry_msgs::msg::dds_::Twist_.
         assert_eq!(dds_type("geometry_msgs/msg/Twist").expect("valid"), "geometry_msgs::msg::dds_::Twist_");
         assert_eq!(dds_type("geometry_msgs/Twist").expect("valid"), "geometry_msgs::msg::dds_::Twist_");
         assert_eq!(dds_type("sillage_msgs/msg/ChemSample").expect("valid"), "sillage_msgs::msg::dds_::ChemSample_");

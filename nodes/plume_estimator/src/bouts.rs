@@ -1,6 +1,6 @@
 //! Bouts: maximal runs in which the smoothed derivative keeps rising.
 //!
-//! Rule (the 2016 bout method as summarised in shared/references.md): a run starts at the
+//! Rule (the 2016 bout method as summarised in docs/references.md): a run starts at the
 //! sample before the first strict rise (`e[n] > e[n-1]`) and ends at the last sample of the
 //! rise (a tie or a fall ends it); its *onset* is the run's first sample, its *peak* the last,
 //! its *amplitude* the rise of the smoothed derivative over the run, `e[peak] - e[onset]`

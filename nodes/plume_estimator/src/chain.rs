@@ -3,7 +3,7 @@
 //!
 //! - `cascade` (the 2016 bout method, "Exploiting plume structure to decode gas source
 //!   distance using metal-oxide gas sensors", Sensors and Actuators B 235:636-646, 2016, as
-//!   summarised in shared/references.md): low-pass (Gaussian kernel, made causal by a delay of
+//!   summarised in docs/references.md): low-pass (Gaussian kernel, made causal by a delay of
 //!   its radius; or Butterworth), first difference `/ dt`, exponential moving average with
 //!   half-life `ema_half_life`. The 2016 work smoothed with a centred (non-causal) kernel
 //!   offline; the delayed kernel has the same magnitude response and a pure delay.

@@ -1,9 +1,9 @@
 //! The node's parameters: one typed struct, units in brackets, validated as a whole.
 //!
 //! Published defaults are marked with their source; values the project chose are marked
-//! "project default". The cascade's time constants follow shared/references.md's summary of
+//! "project default". The cascade's time constants follow docs/references.md's summary of
 //! the 2016 bout method, which marks them as unverified there: "as summarised in
-//! shared/references.md".
+//! docs/references.md".
 
 use serde::{Deserialize, Serialize};
 use sillage_core::params::{ensure, NodeParams, ParamError};
@@ -88,7 +88,7 @@ pub struct FilterParams {
     /// Low-pass stage of the cascade: `gaussian` or `butterworth`.
     pub lowpass: LowPassKind,
     /// Standard deviation of the Gaussian low-pass [s] (> 0). Default 0.03 s: a kernel "of a
-    /// few samples" at 100 Hz, as summarised in shared/references.md.
+    /// few samples" at 100 Hz, as summarised in docs/references.md.
     pub gaussian_sigma: f64,
     /// Order of the Butterworth low-pass (1..=8). Project default.
     pub butterworth_order: usize,
@@ -96,7 +96,7 @@ pub struct FilterParams {
     /// Project default.
     pub butterworth_cutoff: f64,
     /// Half-life of the exponential smoothing of the derivative [s] (> 0). Default 0.3 s, as
-    /// summarised in shared/references.md.
+    /// summarised in docs/references.md.
     pub ema_half_life: f64,
     /// Cut-off of the FIR low-pass differentiator [Hz]. The 2020 work tunes it jointly with
     /// the amplitude threshold per wind speed; this default is the project's.

@@ -25,7 +25,7 @@
 //!   baseline removal; per sample) over the window, the proximity indicator of "Indicators of
 //!   gas source proximity using metal oxide sensors in a turbulent environment" (2006), which
 //!   found std/mean a better proximity indicator than the mean or the std alone (as summarised
-//!   in shared/references.md); NaN unless the mean is > 0. Diagnostics only (PlumeFeatures has
+//!   in docs/references.md); NaN unless the mean is > 0. Diagnostics only (PlumeFeatures has
 //!   no field for it).
 //!
 //! Pooled over channels ("combined", what PlumeFeatures carries): every channel's bouts,

@@ -59,7 +59,7 @@ mod tests {
     #[test]
     fn supported_distributions() {
         // ROS 2 distributions with r2r 0.9.7 support that are maintained at the end of 2026
-        // (shared/ros2-notes.md; REP 2000 release dates, from memory).
+        // (REP 2000 release dates, from memory).
         for d in ["humble", "jazzy", "lyrical", "rolling"] {
             assert!(crate::distro::check_distro(d).is_ok(), "{d}");
         }

@@ -33,8 +33,11 @@ fn shipped_scenarios_load_and_build() {
     assert_eq!(
         names,
         [
+            "drum-store-side-start",
+            "greenhouse-light-air",
             "meandering-yard",
             "open-field-gaussian",
+            "plant-room-cabinet",
             "steady-corridor",
             "warehouse-hall"
         ]

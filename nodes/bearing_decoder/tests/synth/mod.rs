@@ -7,7 +7,7 @@
 //!
 //! Model (ours, for testing only): filament k arrives at the array centre at T_k (Poisson at
 //! `filament_rate`, at least `min_gap` apart) from direction theta + N(0, meander) and reaches
-//! sensor i at T_k + p_i . s_k, s_k = -u(theta_k) / U (shared/references.md "Bilateral
+//! sensor i at T_k + p_i . s_k, s_k = -u(theta_k) / U (docs/references.md "Bilateral
 //! direction"); its pulse at sensor i is A_k (1 + N(0, amp_jitter)) g(t - t_ik), with the
 //! alpha function g(t) = (t / tau) exp(1 - t / tau) (peak 1 at t = tau). Noise sigma is
 //! 1 / snr (the mean pulse height is 1).

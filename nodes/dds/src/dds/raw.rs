@@ -99,7 +99,7 @@ mod tests {
 
     #[test]
     fn encoded_payloads_cross_the_serializer_byte_for_byte() {
-        // The 76-byte TwistStamped of shared/ros2-notes.md ("CDR" worked example).
+        // The 76-byte TwistStamped (OMG DDS-XTypes XCDR1 little-endian, checked against rosbags in tests/refs).
         let m = TwistStamped {
             header: Header::new(1_500_000_000, "base_link"),
             twist: Twist { linear: Vector3 { x: 0.5, y: 0.0, z: 0.0 }, angular: Vector3 { x: 0.0, y: 0.0, z: -0.25 } },

@@ -109,14 +109,14 @@ mod tests {
     const G: u8 = ChemSample::CONDUCTANCE;
 
     /// Power-law MOX response Rs = R0 (C/C0)^(-beta) (Clifford and Tuma, Sensors and Actuators
-    /// 3, 1982-83; shared/references.md).
+    /// 3, 1982-83; docs/references.md).
     fn rs(c: f64, beta: f64) -> f64 {
         10_000.0 * (c / 50.0).powf(-beta)
     }
 
     #[test]
     fn quadrupling_concentration_doubles_conductance_at_beta_one_half() {
-        // references.md: "with beta = 0.5, quadrupling C halves Rs", so G doubles.
+        // docs/references.md: "with beta = 0.5, quadrupling C halves Rs", so G doubles.
         for c in [5.0, 50.0, 400.0] {
             let g1 = apply(Transform::Conductance, rs(c, 0.5), R, 0.0).expect("valid");
             let g4 = apply(Transform::Conductance, rs(4.0 * c, 0.5), R, 0.0).expect("valid");

@@ -2,7 +2,7 @@
 //! concept: an event-based data reporting strategy", Sensors 6(1):49-63, 2006): every event
 //! needs a change of delta, so N <= TV / delta; on each monotonic stretch the reference lags the
 //! turning point by less than delta, so N > TV / delta - 2 per turning point (derivation in
-//! shared/references.md; about one per turning point on average).
+//! docs/references.md; about one per turning point on average).
 
 use super::*;
 use proptest::prelude::*;
@@ -38,7 +38,7 @@ fn sine(a: f64, f: f64, rate: f64, secs: f64) -> impl Iterator<Item = (Nanos, f6
 
 #[test]
 fn sinusoid_gives_about_four_a_over_delta_events_per_period() {
-    // references.md: A sin(2 pi f t) has TV = 4A per period, so about 4A/delta reports per
+    // docs/references.md: A sin(2 pi f t) has TV = 4A per period, so about 4A/delta reports per
     // period; A = 1.05 (no exact tie with delta = 0.1): 42, at most one fewer per monotonic
     // half-swing (2 per period).
     let (a, delta, periods) = (1.05, 0.1, 10.0);

@@ -81,7 +81,7 @@ mod tests {
 
     #[test]
     fn ema_alpha_check_value() {
-        // shared/references.md (Bouts): dt = 0.01 s, hl = 0.3 s gives alpha = 0.02284.
+        // docs/references.md (Bouts): dt = 0.01 s, hl = 0.3 s gives alpha = 0.02284.
         assert_relative_eq!(ema_alpha(0.3, 0.01).expect("alpha"), 0.02284, epsilon = 5e-6);
         // Half-life by definition: after hl / dt steps a step response has covered half the way.
         let mut e = Ema::new(0.3, 0.01).expect("ema");

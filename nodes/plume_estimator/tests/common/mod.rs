@@ -4,7 +4,7 @@
 //! power-law steady state `Rs/R0 = (1 + C/C_ref)^(-beta)` and an asymmetric first-order
 //! response of the conductance (tau_rise while the steady state is above the state, tau_decay
 //! otherwise; the "double first-order" model and the power law as summarised in
-//! shared/references.md, MOX sensors; the time constants are the values quoted there as
+//! docs/references.md, MOX sensors; the time constants are the values quoted there as
 //! unverified and only shape the test signal), plus multiplicative noise. Seeded, so
 //! deterministic.
 

@@ -73,6 +73,7 @@ const DOCUMENTED: &[(&str, &str)] = &[
     ("bearing_decoder", include_str!("../../../../config/bearing_decoder.yaml")),
     ("plume_estimator", include_str!("../../../../config/plume_estimator.yaml")),
     ("arbiter", include_str!("../../../../config/arbiter.yaml")),
+    ("source_mapper", include_str!("../../../../config/source_mapper.yaml")),
 ];
 
 /// Dotted key -> end-of-line comment of a parameter file laid out as the shipped ones are
