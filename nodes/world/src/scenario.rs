@@ -256,13 +256,20 @@ impl Scenario {
     pub fn from_yaml_str(text: &str, file: &str) -> Result<Self, WorldError> {
         let de = serde_yaml::Deserializer::from_str(text);
         let scenario: Scenario = serde_path_to_error::deserialize(de).map_err(|e| {
-            let key = e.path().to_string();
+            let mut key = e.path().to_string();
             let message = e.into_inner().to_string();
             // serde_yaml already prefixes some messages with the path: keep it once.
-            let message = message
+            let mut message = message
                 .strip_prefix(&format!("{key}: "))
                 .map(str::to_owned)
                 .unwrap_or(message);
+            // A missing field is named by its own dotted key, not by its parent's (`.` at the top).
+            if let Some(rest) = message.strip_prefix("missing field `") {
+                if let Some((field, tail)) = rest.split_once('`') {
+                    key = if key == "." { field.to_owned() } else { format!("{key}.{field}") };
+                    message = format!("missing (required){tail}");
+                }
+            }
             WorldError::Parse {
                 file: file.to_owned(),
                 key,

@@ -77,6 +77,14 @@ fn unknown_key_names_file_and_path() {
 }
 
 #[test]
+fn a_missing_key_is_named_by_its_own_dotted_key() {
+    let text: String = demo_text().lines().filter(|l| !l.starts_with("success_radius:")).map(|l| format!("{l}\n")).collect();
+    let msg = error_of(&text).to_string();
+    assert!(msg.starts_with("bad.yaml: key `success_radius`: missing (required)"), "{msg}");
+    assert!(!msg.contains("key `.`"), "{msg}");
+}
+
+#[test]
 fn wrong_type_names_the_key() {
     let text = demo_text().replace("position: [3.0, 6.0, 0.3]", "position: [3.0, 6.0]");
     let msg = error_of(&text).to_string();
