@@ -91,7 +91,7 @@ $namespace/plume_estimator:
   ros__parameters:
     features:
       window: 4.0
-      sub_window: 2.0
+      rate_cv_window: 2.0
     bouts:
       learn_time: 2.0
 EOF

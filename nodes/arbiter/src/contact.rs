@@ -185,14 +185,16 @@ impl ContactDetector {
         hit
     }
 
-    /// The events of one array (channel index, polarity +1/-1, level) arrived at `now`, the
-    /// robot being at `at`; returns whether a sustained level made a hit.
-    pub fn on_levels(&mut self, now: Nanos, events: impl IntoIterator<Item = (u32, i8, f64)>, at: Option<Vec2>) -> bool {
-        for (channel, polarity, level) in events {
+    /// The events of one array (channel index, polarity +1/-1, level, stamp) arrived at `now`,
+    /// the robot being at `at`; returns whether a sustained level made a hit.
+    /// Each event carries its own stamp [ns] (data time, so that every executor sees the same
+    /// ages whatever the transport delay); a stamp after `now` counts as `now`.
+    pub fn on_levels(&mut self, now: Nanos, events: impl IntoIterator<Item = (u32, i8, f64, Nanos)>, at: Option<Vec2>) -> bool {
+        for (channel, polarity, level, stamp) in events {
             if !level.is_finite() {
                 continue;
             }
-            let mut e = ChannelLevel { channel, level, rising: polarity > 0, at: now, falls_seen: polarity < 0 };
+            let mut e = ChannelLevel { channel, level, rising: polarity > 0, at: stamp.min(now), falls_seen: polarity < 0 };
             match self.levels.iter_mut().find(|c| c.channel == channel) {
                 Some(c) => {
                     e.falls_seen |= c.falls_seen;
@@ -291,34 +293,47 @@ mod tests {
     }
 
     #[test]
+    fn a_level_is_dated_by_its_event_stamp_not_its_arrival() {
+        let p = ContactParams { level_enter: 0.2, level_exit: 0.1, level_steady: 3.0, ..Default::default() };
+        // A rise stamped at 0 s, delivered at 2.9 s, then a fall seen: at 3.5 s the level is
+        // 3.5 s old by its stamp (steady, falls seen: a hit); by its arrival it would still be
+        // rising-fresh and also hit, so check the other side: a rise stamped 0 s and arriving
+        // at 3.5 s is old on arrival and, with no fall seen, gives no hit.
+        let mut late = ContactDetector::new(p.clone());
+        assert!(!late.on_levels(3 * SECOND + SECOND / 2, [(0, 1, 0.5, 0)], None), "old on arrival, no falls seen");
+        let mut fresh = ContactDetector::new(p);
+        assert!(fresh.on_levels(3 * SECOND + SECOND / 2, [(0, 1, 0.5, 3 * SECOND)], None), "a fresh rise is a hit");
+    }
+
+    #[test]
     fn a_sustained_level_holds_a_contact_and_a_falling_one_does_not() {
         let p = ContactParams { level_enter: 0.2, level_exit: 0.1, level_steady: 3.0, ..Default::default() };
         let mut c = ContactDetector::new(p);
-        assert!(!c.on_levels(0, [(0, 1, 0.15)], None), "below level_enter");
-        assert!(!c.on_levels(0, [(0, -1, 0.05)], None), "channel 0 back near its baseline");
-        assert!(c.on_levels(SECOND, [(1, 1, 0.25)], Some(Vec2::new(4.0, 0.0))), "channel 1 rose above level_enter");
+        assert!(!c.on_levels(0, [(0, 1, 0.15, 0)], None), "below level_enter");
+        assert!(!c.on_levels(0, [(0, -1, 0.05, 0)], None), "channel 0 back near its baseline");
+        assert!(c.on_levels(SECOND, [(1, 1, 0.25, SECOND)], Some(Vec2::new(4.0, 0.0))), "channel 1 rose above level_enter");
         assert_eq!(c.view(SECOND).cause, Some(HitCause::Level));
         assert_eq!(c.view(SECOND).point, Some(Vec2::new(4.0, 0.0)));
         // Falling on channel 1 but still above the exit level: no hit while it falls.
-        assert!(!c.on_levels(2 * SECOND, [(1, -1, 0.2)], None));
+        assert!(!c.on_levels(2 * SECOND, [(1, -1, 0.2, 2 * SECOND)], None));
         // No new event for 3 s: a steady signal above level_exit is a hit again (empty arrays).
         assert!(c.in_contact(3 * SECOND));
         assert!(!c.on_levels(4 * SECOND, [], None));
         assert!(!c.in_contact(4 * SECOND), "the falling stretch gave no hit: lost after loss_timeout");
         assert!(c.on_levels(5 * SECOND, [], None), "steady for 3 s at 0.2 >= level_enter");
         // Decayed below the exit level: nothing, and the contact times out.
-        c.on_levels(6 * SECOND, [(1, -1, 0.05), (0, -1, 0.0)], None);
+        c.on_levels(6 * SECOND, [(1, -1, 0.05, 6 * SECOND), (0, -1, 0.0, 6 * SECOND)], None);
         for k in 7..=12 {
             assert!(!c.on_levels(k * SECOND, [], None));
         }
         assert!(!c.in_contact(12 * SECOND));
         // A channel that never sent a falling event gets no credit for a steady level.
         let mut rises_only = ContactDetector::new(ContactParams { level_enter: 0.2, level_exit: 0.1, level_steady: 3.0, ..Default::default() });
-        assert!(rises_only.on_levels(0, [(0, 1, 0.5)], None));
+        assert!(rises_only.on_levels(0, [(0, 1, 0.5, 0)], None));
         assert!(!rises_only.on_levels(10 * SECOND, [], None), "no falls seen: no steady hold");
         let mut off = ContactDetector::new(ContactParams { level_enter: 0.0, ..Default::default() });
-        assert!(!off.on_levels(0, [(0, 1, 5.0)], None), "level_enter 0 switches level hits off");
-        assert!(!off.on_levels(0, [(0, 1, f64::NAN)], None));
+        assert!(!off.on_levels(0, [(0, 1, 5.0, 0)], None), "level_enter 0 switches level hits off");
+        assert!(!off.on_levels(0, [(0, 1, f64::NAN, 0)], None));
     }
 
     #[test]

@@ -580,7 +580,7 @@ impl NodeCore for Arbiter {
             (Some(Input::OdorEvents), Msg::OdorEventArray(m)) => {
                 self.accept(now, Input::OdorEvents, &m.header.stamp, inputs::events(m, self.params.contact.min_event_level), |s, e| {
                     let at = s.position();
-                    let levels = m.events.iter().map(|ev| (u32::from(ev.channel), ev.polarity, ev.level));
+                    let levels = m.events.iter().map(|ev| (u32::from(ev.channel), ev.polarity, ev.level, ev.stamp.to_nanos()));
                     s.contact.on_levels(now, levels, at);
                     let hit = s.contact.on_events(now, e, at);
                     if let (true, Some(at)) = (hit, at) {
