@@ -19,7 +19,7 @@ cat > "$stub/bin/cargo" <<'CARGO'
 #!/bin/sh
 echo "$* IDL_PACKAGE_FILTER=$IDL_PACKAGE_FILTER" > "$CARGO_TARGET_DIR.args"
 mkdir -p "$CARGO_TARGET_DIR/colcon"
-for b in sillage_event_encoder sillage_bearing_decoder sillage_plume_estimator sillage_arbiter sillage_stack sillage_world sillage; do
+for b in sillage_event_encoder sillage_bearing_decoder sillage_plume_estimator sillage_arbiter sillage_source_mapper sillage_stack sillage_world sillage; do
   printf '#!/bin/sh\n' > "$CARGO_TARGET_DIR/colcon/$b"
 done
 CARGO
@@ -41,7 +41,7 @@ for want in "--profile colcon" "-p sillage-ros2 --features sillage-ros2/ros2" "-
   [[ "$args" == *"$want"* ]] || fail "cargo was called without '$want': $args"
 done
 for f in lib/sillage/sillage_event_encoder lib/sillage/sillage_bearing_decoder lib/sillage/sillage_plume_estimator \
-         lib/sillage/sillage_arbiter lib/sillage/sillage_stack lib/sillage/sillage_world bin/sillage \
+         lib/sillage/sillage_arbiter lib/sillage/sillage_source_mapper lib/sillage/sillage_stack lib/sillage/sillage_world bin/sillage \
          share/sillage/launch/robot.launch.xml share/sillage/launch/stack.launch.xml share/sillage/launch/sim.launch.xml \
          share/sillage/config/sillage.yaml share/sillage/config/robot_example.yaml share/sillage/config/scenarios/demo.yaml; do
   [[ -e "$stub/install/$f" ]] || fail "missing $f in the install tree"

@@ -10,7 +10,7 @@
 //! `doc-only` no service is made.
 
 use super::Event;
-use futures::stream::{BoxStream, StreamExt};
+use futures::stream::BoxStream;
 use r2r::Node;
 use sillage_core::msg::Empty;
 use sillage_core::{Msg, Port};
