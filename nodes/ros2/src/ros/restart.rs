@@ -10,7 +10,8 @@
 //! `doc-only` no service is made.
 
 use super::Event;
-use futures::stream::BoxStream;
+#[allow(unused_imports)] // StreamExt is used where r2r is real, not under doc-only
+use futures::stream::{BoxStream, StreamExt};
 use r2r::Node;
 use sillage_core::msg::Empty;
 use sillage_core::{Msg, Port};
