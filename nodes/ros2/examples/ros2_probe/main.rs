@@ -606,11 +606,15 @@ async fn scenario_replay(o: &Opts, v: &mut Verdict) -> AnyResult<()> {
     let (n_got, n_want) = (got.cmds.iter().filter(|c| c.0 <= t_end).count(), want.cmds.len());
     let rel = (n_got as f64 - n_want as f64).abs() / (n_want.max(1) as f64);
     v.check("cmd_vel count within 2% of sillage replay's", rel <= 0.02, format!("{n_got} vs {n_want}"));
-    // Commands at the same control tick (nearest stamp within 60 ms): how many agree.
+    // Commands at the same control tick (nearest stamp within 60 ms): how many agree, from the
+    // first contact on. Before it the acquisition sweep times its legs from the first control
+    // tick, which comes 0.5 s earlier in the processes (start-up, above), so the sweeps are
+    // offset by design until the first contact re-anchors the behaviour.
+    let first_contact = want.transitions.iter().find(|x| x.1 == SearchState::SURGING).map_or(i64::MAX, |x| x.0);
     let mut same = 0usize;
     let mut pairs = 0usize;
     let mut worst: f64 = 0.0;
-    for c in &want.cmds {
+    for c in want.cmds.iter().filter(|c| c.0 >= first_contact) {
         if let Some(d) = got.cmds.iter().min_by_key(|x| (x.0 - c.0).abs()).filter(|x| (x.0 - c.0).abs() < 60_000_000) {
             pairs += 1;
             let e = (d.1 - c.1).abs().max((d.2 - c.2).abs());
@@ -620,8 +624,8 @@ async fn scenario_replay(o: &Opts, v: &mut Verdict) -> AnyResult<()> {
             }
         }
     }
-    println!("cmd_vel: {pairs} paired ticks, {same} equal to 1e-9, largest difference {worst:.4}");
-    v.check("cmd_vel mostly equal to sillage replay's at the same tick", pairs > 0 && same * 10 >= pairs * 9, format!("{same} of {pairs} ticks equal (>= 90%)"));
+    println!("cmd_vel from the first contact: {pairs} paired ticks, {same} equal to 1e-9, largest difference {worst:.4}");
+    v.check("cmd_vel mostly equal to sillage replay's at the same tick from the first contact on", pairs > 0 && same * 10 >= pairs * 9, format!("{same} of {pairs} ticks equal (>= 90%)"));
     stop(&mut g.procs, v);
     // The arbiter's zero command on shutdown.
     let last = observed(&g).cmds.last().copied();
